@@ -1,0 +1,98 @@
+"""Toeline's web app: the Flask app factory.
+
+``create_app(test_config=None)`` builds the app on a data folder (``TOELINE_DATA``, default
+``./toeline-data``) that holds the SQLite database, the photos and the secret key made on
+first start. Blueprints are registered here, one per screen (PRODUCT.md section 12).
+"""
+
+from __future__ import annotations
+
+import os
+import secrets
+from pathlib import Path
+
+from flask import Flask
+from flask_wtf.csrf import CSRFProtect
+
+ROOT = Path(__file__).resolve().parent.parent
+csrf = CSRFProtect()
+
+CAUTION = (
+    "Caution: Toeline's checks aid a competent engineer; they do not replace the engineer of "
+    "record, whose judgement and the local codes govern. Every default (factors, tolerances, "
+    "tables) must be checked against the project's specification."
+)
+
+
+def default_data_dir() -> Path:
+    """The data folder from ``TOELINE_DATA``, else ``./toeline-data``."""
+    return Path(os.environ.get("TOELINE_DATA") or "toeline-data").resolve()
+
+
+def _secret_key(data_dir: Path) -> str:
+    """Read the secret key kept in the data folder, making it on first start (mode 600)."""
+    path = data_dir / "secret_key"
+    if not path.exists():
+        key = secrets.token_hex(32)
+        fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
+        with os.fdopen(fd, "w") as fh:
+            fh.write(key)
+    return path.read_text().strip()
+
+
+def create_app(test_config: dict | None = None, data_dir: str | Path | None = None) -> Flask:
+    """Build the app on a data folder; ``test_config`` overrides settings for tests."""
+    data = Path(data_dir).resolve() if data_dir else default_data_dir()
+    if test_config and test_config.get("DATA_DIR"):
+        data = Path(test_config["DATA_DIR"]).resolve()
+    data.mkdir(parents=True, exist_ok=True)
+    (data / "photos").mkdir(exist_ok=True)
+
+    app = Flask(__name__, template_folder=str(ROOT / "templates"),
+                static_folder=str(ROOT / "static"), static_url_path="/static")
+    app.config.from_mapping(
+        DATA_DIR=str(data),
+        DATABASE=str(data / "toeline.sqlite3"),
+        PHOTO_DIR=str(data / "photos"),
+        SECRET_KEY=_secret_key(data),
+        SESSION_COOKIE_HTTPONLY=True,
+        SESSION_COOKIE_SAMESITE="Lax",
+        MAX_CONTENT_LENGTH=26 * 1024 * 1024,
+        WTF_CSRF_TIME_LIMIT=None,
+        LOGIN_MAX_FAILURES=5,
+        LOGIN_WINDOW_S=300,
+    )
+    if test_config:
+        app.config.update(test_config)
+
+    from fieldapp import db
+    db.init_app(app)
+    csrf.init_app(app)
+
+    from fieldapp import auth
+    auth.init_app(app)
+
+    @app.context_processor
+    def _globals():
+        return {"caution": CAUTION, "has_endpoint": lambda name: name in app.view_functions}
+
+    @app.get("/healthz")
+    def healthz():
+        return {"ok": True}
+
+    for module in ("piles", "ground", "rules", "rig", "review", "record.views", "api"):
+        _register_if_present(app, module)
+    return app
+
+
+def _register_if_present(app: Flask, name: str) -> None:
+    """Register ``fieldapp.<name>.bp`` when that screen's module exists."""
+    import importlib
+
+    try:
+        module = importlib.import_module(f"fieldapp.{name}")
+    except ModuleNotFoundError as exc:
+        if exc.name == f"fieldapp.{name}":
+            return
+        raise
+    app.register_blueprint(module.bp)

@@ -1,0 +1,157 @@
+"""Signing in and out, the project list, and the access rules used by every screen.
+
+Access rules are decorators (``login_required``, ``engineer_required``, ``recorder_required``)
+and one helper, :func:`project_or_404`, that returns the project only to its members: a user
+never learns that another project's id exists.
+"""
+
+from __future__ import annotations
+
+import functools
+
+from flask import (Blueprint, abort, current_app, flash, g, jsonify, redirect, render_template, request,
+                   session, url_for)
+from flask_wtf import FlaskForm
+from wtforms import EmailField, PasswordField
+from wtforms.validators import DataRequired, Length
+
+from fieldapp import db
+from fieldapp.queries import audit, projects, users
+
+bp = Blueprint("auth", __name__)
+
+
+class LoginForm(FlaskForm):
+    """Email and password."""
+
+    email = EmailField("Email", validators=[DataRequired(message="email is required"),
+                                            Length(max=254)])
+    password = PasswordField("Password", validators=[DataRequired(message="password is required"),
+                                                     Length(max=1024)])
+
+
+def init_app(app) -> None:
+    """Register the blueprint and load the signed-in user before each request."""
+    app.register_blueprint(bp)
+    app.before_request(_load_user)
+
+
+def _load_user() -> None:
+    user_id = session.get("user_id")
+    g.user = users.by_id(db.get_db(), user_id) if user_id else None
+
+
+def _is_api() -> bool:
+    return request.path.startswith("/api/")
+
+
+def _deny(status: int):
+    if _is_api():
+        messages = {401: "login required", 403: "forbidden", 404: "not found"}
+        response = jsonify({"error": messages[status]})
+        response.status_code = status
+        abort(response)
+    abort(status)
+
+
+def login_required(view):
+    """Only signed-in users; pages redirect to the login, the API answers 401."""
+    @functools.wraps(view)
+    def wrapped(*args, **kwargs):
+        if g.get("user") is None:
+            if _is_api():
+                _deny(401)
+            return redirect(url_for("auth.login", next=request.path))
+        return view(*args, **kwargs)
+    return wrapped
+
+
+def engineer_required(view):
+    """Only engineers and admins: they change ground, rules and schedule and sign off (403 else)."""
+    @functools.wraps(view)
+    @login_required
+    def wrapped(*args, **kwargs):
+        if not g.user.is_engineer:
+            _deny(403)
+        return view(*args, **kwargs)
+    return wrapped
+
+
+def recorder_required(view):
+    """Inspectors, engineers and admins: they record piles; a viewer changes nothing (403)."""
+    @functools.wraps(view)
+    @login_required
+    def wrapped(*args, **kwargs):
+        if not g.user.can_record:
+            _deny(403)
+        return view(*args, **kwargs)
+    return wrapped
+
+
+def admin_required(view):
+    """Only admins (403 else)."""
+    @functools.wraps(view)
+    @login_required
+    def wrapped(*args, **kwargs):
+        if g.user.role != "admin":
+            _deny(403)
+        return view(*args, **kwargs)
+    return wrapped
+
+
+def project_or_404(project_id: int) -> projects.Project:
+    """The project when the signed-in user may see it (member, or admin); 404 otherwise."""
+    conn = db.get_db()
+    project = projects.get(conn, project_id)
+    if project is None or g.user is None:
+        _deny(404)
+    if g.user.role != "admin" and not users.is_member(conn, project_id, g.user.id):
+        _deny(404)
+    return project
+
+
+@bp.route("/login", methods=["GET", "POST"])
+def login():
+    """Sign in with email and password; repeated failures are slowed down (429)."""
+    form = LoginForm()
+    if form.validate_on_submit():
+        conn = db.get_db()
+        email = form.email.data.strip().lower()
+        max_failures = current_app.config["LOGIN_MAX_FAILURES"]
+        window = current_app.config["LOGIN_WINDOW_S"]
+        if users.recent_failures(conn, email, window) >= max_failures:
+            flash(f"Too many failed logins for this email: wait {window // 60} minutes and try again.")
+            return render_template("login.html", form=form), 429
+        user = users.authenticate(conn, email, form.password.data)
+        if user is None:
+            with db.write(conn):
+                users.record_login_failure(conn, email)
+                audit.append(conn, None, email, "login failed", email, {"ip": request.remote_addr})
+            flash("Email or password is wrong.")
+            return render_template("login.html", form=form), 401
+        with db.write(conn):
+            users.clear_failures(conn, email)
+        session.clear()  # a new session at every login
+        session["user_id"] = user.id
+        session.permanent = True
+        target = request.args.get("next") or ""
+        if not target.startswith("/") or target.startswith("//"):
+            target = url_for("auth.index")
+        return redirect(target)
+    status = 400 if request.method == "POST" else 200
+    return render_template("login.html", form=form), status
+
+
+@bp.post("/logout")
+def logout():
+    """Sign out."""
+    session.clear()
+    return redirect(url_for("auth.login"))
+
+
+@bp.get("/")
+@login_required
+def index():
+    """The projects the user belongs to."""
+    return render_template("projects.html",
+                           projects=projects.for_user(db.get_db(), g.user.id, g.user.role))

@@ -1,0 +1,149 @@
+"""The ``toeline`` command: set up a data folder, add users, serve, and the demo.
+
+The data folder comes from ``--data DIR`` (on the command or before it) or ``TOELINE_DATA``,
+default ``./toeline-data``.
+"""
+
+from __future__ import annotations
+
+import sys
+
+import click
+
+from fieldapp import create_app, db
+
+DEFAULT_DATA = "toeline-data"
+
+
+def data_option(f):
+    """Add ``--data DIR`` to a subcommand (overrides the group's option)."""
+    return click.option("--data", "data_dir", default=None, type=click.Path(file_okay=False),
+                        help="Data folder (default: TOELINE_DATA or ./toeline-data).")(f)
+
+
+def _app(ctx: click.Context, data_dir: str | None):
+    folder = data_dir or ctx.obj["data"]
+    return create_app(data_dir=folder)
+
+
+@click.group()
+@click.option("--data", "data_dir", envvar="TOELINE_DATA", default=DEFAULT_DATA, show_default=True,
+              type=click.Path(file_okay=False), help="Data folder (also TOELINE_DATA).")
+@click.pass_context
+def main(ctx: click.Context, data_dir: str) -> None:
+    """Toeline: record piles as built, recheck them on the spot, certify the foundations."""
+    ctx.ensure_object(dict)
+    ctx.obj["data"] = data_dir
+
+
+@main.command()
+@data_option
+@click.pass_context
+def init(ctx, data_dir):
+    """Create the data folder and database (safe to run again)."""
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        version = db.schema_version(db.get_db())
+    click.echo(f"data folder {app.config['DATA_DIR']} ready (schema version {version})")
+
+
+@main.command()
+@data_option
+@click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
+@click.option("--port", default=8000, show_default=True, type=int)
+@click.option("--threads", default=8, show_default=True, type=int)
+@click.pass_context
+def serve(ctx, data_dir, host, port, threads):
+    """Serve the app with waitress (the production WSGI server)."""
+    app = _app(ctx, data_dir)
+    _serve(app, host, port, threads)
+
+
+def _serve(app, host: str, port: int, threads: int = 8) -> None:
+    import waitress
+
+    click.echo(f"Toeline serving {app.config['DATA_DIR']} at http://{host}:{port}/  (Ctrl+C stops)")
+    waitress.serve(app, host=host, port=port, threads=threads, ident="toeline")
+
+
+@main.group()
+def user():
+    """Manage users."""
+
+
+@user.command("add")
+@data_option
+@click.argument("email")
+@click.option("--role", required=True, type=click.Choice(["admin", "engineer", "inspector", "viewer"]))
+@click.option("--name", default="", help="Full name shown on records.")
+@click.option("--project", "project_ids", type=int, multiple=True, help="Project id to join (repeatable).")
+@click.option("--password-stdin", is_flag=True, help="Read the password from standard input.")
+@click.pass_context
+def user_add(ctx, data_dir, email, role, name, project_ids, password_stdin):
+    """Add a user with a role, optionally to projects."""
+    from fieldapp.queries import audit, projects, users
+
+    if password_stdin:
+        password = sys.stdin.readline().rstrip("\r\n")
+    else:
+        password = click.prompt("Password", hide_input=True, confirmation_prompt=True)
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        conn = db.get_db()
+        try:
+            with db.write(conn):
+                user_id = users.create(conn, email, password, role, name)
+                for pid in project_ids:
+                    if projects.get(conn, pid) is None:
+                        raise ValueError(f"project {pid} does not exist")
+                    users.add_member(conn, pid, user_id)
+                    audit.append(conn, pid, "cli", "member added", email, {"role": role})
+        except ValueError as exc:
+            raise click.ClickException(str(exc)) from exc
+    click.echo(f"user {email} added as {role}")
+
+
+@main.command()
+@data_option
+@click.option("--host", default="127.0.0.1", show_default=True)
+@click.option("--port", default=8000, show_default=True, type=int)
+@click.option("--no-serve", is_flag=True, help="Build the demo data and stop.")
+@click.pass_context
+def demo(ctx, data_dir, host, port, no_serve):
+    """Create the demo project in an empty data folder, print the logins, and serve."""
+    from fieldapp import demo as demo_data
+    from fieldapp.queries import projects
+
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        conn = db.get_db()
+        if not projects.all_projects(conn):
+            click.echo("building the demo project ...")
+            demo_data.build(app)
+        else:
+            click.echo("data folder already holds projects; serving it as it is")
+    click.echo("Demo logins (invented people):")
+    for email, role, password in getattr(demo_data, "LOGINS", []):
+        click.echo(f"  {role:<9} {email:<28} password: {password}")
+    if not no_serve:
+        _serve(app, host, port)
+
+
+def _load_extra_commands() -> None:
+    """Commands that live beside their area (import/export, audit, record, backup)."""
+    import importlib
+
+    for name in ("fieldapp.schedule_io", "fieldapp.review_cli", "fieldapp.record.cli", "fieldapp.backup"):
+        try:
+            module = importlib.import_module(name)
+        except ModuleNotFoundError as exc:
+            if exc.name == name:
+                continue
+            raise
+        module.register(main)
+
+
+_load_extra_commands()
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

@@ -1,0 +1,144 @@
+"""The one owner of database connections and migrations.
+
+SQLite in the data folder: WAL journal, foreign keys on, ``synchronous=FULL`` (a write the
+server acknowledged survives a power cut), a busy timeout so concurrent writers wait instead
+of failing. Connections run in autocommit mode and every user action is one explicit
+transaction through :func:`write` (``BEGIN IMMEDIATE`` ... ``COMMIT``), so a half-saved pile
+record is impossible.
+
+SQL lives in ``fieldapp/queries/``; views call those functions and never write SQL.
+"""
+
+from __future__ import annotations
+
+import re
+import sqlite3
+from contextlib import contextmanager
+from importlib import resources
+from pathlib import Path
+from typing import Iterator
+
+from flask import current_app, g
+
+BUSY_TIMEOUT_MS = 15_000
+
+
+def connect(path: str | Path) -> sqlite3.Connection:
+    """Open a connection with the house settings (row factory, WAL, foreign keys, FULL sync)."""
+    conn = sqlite3.connect(str(path), timeout=BUSY_TIMEOUT_MS / 1000, isolation_level=None,
+                           check_same_thread=False)
+    conn.row_factory = sqlite3.Row
+    conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+    conn.execute("PRAGMA journal_mode = WAL")
+    conn.execute("PRAGMA synchronous = FULL")
+    conn.execute("PRAGMA foreign_keys = ON")
+    return conn
+
+
+def get_db() -> sqlite3.Connection:
+    """The request's connection, opened on first use and closed at teardown."""
+    if "db" not in g:
+        g.db = connect(current_app.config["DATABASE"])
+    return g.db
+
+
+def close_db(_exc: BaseException | None = None) -> None:
+    """Close the request's connection, if one was opened."""
+    db = g.pop("db", None)
+    if db is not None:
+        db.close()
+
+
+@contextmanager
+def write(conn: sqlite3.Connection | None = None) -> Iterator[sqlite3.Connection]:
+    """One transaction for one user action: everything inside commits together or not at all.
+
+    ``BEGIN IMMEDIATE`` takes the write lock at the start, so two writers queue on the busy
+    timeout rather than failing half-way with a lock upgrade. Nested use joins the outer
+    transaction.
+    """
+    conn = conn if conn is not None else get_db()
+    if conn.in_transaction:
+        yield conn
+        return
+    conn.execute("BEGIN IMMEDIATE")
+    try:
+        yield conn
+    except BaseException:
+        conn.execute("ROLLBACK")
+        raise
+    else:
+        conn.execute("COMMIT")
+
+
+_MIGRATION_NAME = re.compile(r"^(\d{4})_[a-z0-9_]+\.sql$")
+
+
+def migration_files() -> list[tuple[int, str, str]]:
+    """(number, name, sql) of every migration shipped in ``fieldapp/migrations``, in order."""
+    out = []
+    for entry in resources.files("fieldapp").joinpath("migrations").iterdir():
+        match = _MIGRATION_NAME.match(entry.name)
+        if match:
+            out.append((int(match.group(1)), entry.name, entry.read_text(encoding="utf-8")))
+    out.sort()
+    numbers = [n for n, _, _ in out]
+    if len(set(numbers)) != len(numbers):
+        raise RuntimeError(f"two migrations share a number: {numbers}")
+    return out
+
+
+def migrate(conn: sqlite3.Connection) -> list[str]:
+    """Apply every migration newer than the database's ``user_version``; returns names applied.
+
+    Idempotent: a second call applies nothing. Each migration and its version bump commit
+    together.
+    """
+    applied = []
+    current = conn.execute("PRAGMA user_version").fetchone()[0]
+    for number, name, sql in migration_files():
+        if number <= current:
+            continue
+        conn.execute("BEGIN IMMEDIATE")
+        try:
+            for statement in _split_sql(sql):
+                conn.execute(statement)
+            conn.execute(f"PRAGMA user_version = {int(number)}")
+        except BaseException:
+            conn.execute("ROLLBACK")
+            raise
+        conn.execute("COMMIT")
+        applied.append(name)
+    return applied
+
+
+def _split_sql(sql: str) -> list[str]:
+    """Split a migration into statements, keeping ``CREATE TRIGGER ... END;`` blocks whole."""
+    statements, buf = [], []
+    for line in sql.splitlines():
+        stripped = line.strip()
+        if not buf and (not stripped or stripped.startswith("--")):
+            continue
+        buf.append(line)
+        text = "\n".join(buf)
+        if sqlite3.complete_statement(text):
+            statements.append(text)
+            buf = []
+    if buf and "\n".join(buf).strip():
+        raise RuntimeError("migration ends with an incomplete statement")
+    return statements
+
+
+def schema_version(conn: sqlite3.Connection) -> int:
+    """The number of the last migration applied."""
+    return conn.execute("PRAGMA user_version").fetchone()[0]
+
+
+def init_app(app) -> None:
+    """Register teardown and apply migrations once at start."""
+    app.teardown_appcontext(close_db)
+    conn = connect(app.config["DATABASE"])
+    try:
+        migrate(conn)
+    finally:
+        conn.close()

@@ -1,0 +1,138 @@
+"""Users, passwords, project membership and login failures."""
+
+from __future__ import annotations
+
+import sqlite3
+import time
+from dataclasses import dataclass
+
+from argon2 import PasswordHasher
+from argon2.exceptions import InvalidHashError, VerificationError
+
+from fieldapp.queries.audit import now_iso
+
+ROLES = ("admin", "engineer", "inspector", "viewer")
+
+_hasher = PasswordHasher()
+
+
+@dataclass(frozen=True)
+class User:
+    """A signed-in person: id, email, name and role."""
+
+    id: int
+    email: str
+    name: str
+    role: str
+
+    @property
+    def is_engineer(self) -> bool:
+        """Engineers (and admins) may change ground, rules and schedule and sign off."""
+        return self.role in ("engineer", "admin")
+
+    @property
+    def can_record(self) -> bool:
+        """Inspectors, engineers and admins may record piles; viewers may not."""
+        return self.role in ("inspector", "engineer", "admin")
+
+    @property
+    def label(self) -> str:
+        """The name, or the email when no name was given."""
+        return self.name or self.email
+
+
+def _user(row) -> User | None:
+    return User(row["id"], row["email"], row["name"], row["role"]) if row else None
+
+
+def hash_password(password: str) -> str:
+    """Argon2id hash of a password (argon2-cffi defaults)."""
+    return _hasher.hash(password)
+
+
+def check_password(stored_hash: str, password: str) -> bool:
+    """True when the password matches the stored Argon2 hash."""
+    try:
+        return _hasher.verify(stored_hash, password)
+    except (VerificationError, InvalidHashError):
+        return False
+
+
+def create(conn: sqlite3.Connection, email: str, password: str, role: str, name: str = "") -> int:
+    """Insert a user; ValueError for an unknown role or an email already taken."""
+    email = email.strip().lower()
+    if role not in ROLES:
+        raise ValueError(f"role must be one of {', '.join(ROLES)}, got {role!r}")
+    if "@" not in email or len(email) > 254:
+        raise ValueError(f"email {email!r} is not an email address")
+    if len(password) < 8:
+        raise ValueError("password must be at least 8 characters")
+    if conn.execute("SELECT 1 FROM users WHERE email = ?", (email,)).fetchone():
+        raise ValueError(f"a user with email {email} already exists")
+    cur = conn.execute(
+        "INSERT INTO users (email, name, password_hash, role, created_at) VALUES (?, ?, ?, ?, ?)",
+        (email, name, hash_password(password), role, now_iso()))
+    return cur.lastrowid
+
+
+def by_id(conn: sqlite3.Connection, user_id: int) -> User | None:
+    """The user with this id, or None."""
+    return _user(conn.execute("SELECT * FROM users WHERE id = ?", (user_id,)).fetchone())
+
+
+def by_email(conn: sqlite3.Connection, email: str) -> User | None:
+    """The user with this email, or None."""
+    return _user(conn.execute("SELECT * FROM users WHERE email = ?",
+                              (email.strip().lower(),)).fetchone())
+
+
+def authenticate(conn: sqlite3.Connection, email: str, password: str) -> User | None:
+    """The user when email and password match, else None (same work either way)."""
+    row = conn.execute("SELECT * FROM users WHERE email = ?", (email.strip().lower(),)).fetchone()
+    if row is None:
+        check_password(_DUMMY_HASH, password)
+        return None
+    return _user(row) if check_password(row["password_hash"], password) else None
+
+
+def verify_password(conn: sqlite3.Connection, user_id: int, password: str) -> bool:
+    """True when ``password`` is this user's password (re-entry at sign-off)."""
+    row = conn.execute("SELECT password_hash FROM users WHERE id = ?", (user_id,)).fetchone()
+    return bool(row) and check_password(row["password_hash"], password)
+
+
+def add_member(conn: sqlite3.Connection, project_id: int, user_id: int) -> None:
+    """Make the user a member of the project (no-op if already)."""
+    conn.execute("INSERT OR IGNORE INTO memberships (project_id, user_id) VALUES (?, ?)",
+                 (project_id, user_id))
+
+
+def is_member(conn: sqlite3.Connection, project_id: int, user_id: int) -> bool:
+    """True when the user belongs to the project."""
+    return conn.execute("SELECT 1 FROM memberships WHERE project_id = ? AND user_id = ?",
+                        (project_id, user_id)).fetchone() is not None
+
+
+def all_users(conn: sqlite3.Connection) -> list[User]:
+    """Every user, by email."""
+    return [_user(r) for r in conn.execute("SELECT * FROM users ORDER BY email").fetchall()]
+
+
+def record_login_failure(conn: sqlite3.Connection, email: str) -> None:
+    """Note a failed login for rate limiting."""
+    conn.execute("INSERT INTO login_failures (email, at) VALUES (?, ?)",
+                 (email.strip().lower(), time.time()))
+
+
+def recent_failures(conn: sqlite3.Connection, email: str, window_s: float) -> int:
+    """Failed logins for this email within the last ``window_s`` seconds."""
+    return conn.execute("SELECT COUNT(*) FROM login_failures WHERE email = ? AND at > ?",
+                        (email.strip().lower(), time.time() - window_s)).fetchone()[0]
+
+
+def clear_failures(conn: sqlite3.Connection, email: str) -> None:
+    """Forget failed logins after a successful one."""
+    conn.execute("DELETE FROM login_failures WHERE email = ?", (email.strip().lower(),))
+
+
+_DUMMY_HASH = _hasher.hash("not a real password, used to even out timing")

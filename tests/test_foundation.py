@@ -1,0 +1,111 @@
+"""The app factory, the data folder, migrations, login and the design_core layering."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+from fieldapp import create_app, db
+from fieldapp.queries import audit
+
+
+def test_data_folder_holds_database_photos_and_secret(app, tmp_path):
+    data = tmp_path / "data"
+    assert (data / "toeline.sqlite3").exists()
+    assert (data / "photos").is_dir()
+    key = (data / "secret_key").read_text()
+    assert len(key) == 64 and oct((data / "secret_key").stat().st_mode)[-3:] == "600"
+    # the same key on the next start: sessions survive a restart
+    again = create_app({"TESTING": True, "DATA_DIR": str(data)})
+    assert again.config["SECRET_KEY"] == app.config["SECRET_KEY"]
+
+
+def test_database_settings(app):
+    with app.app_context():
+        conn = db.get_db()
+        assert conn.execute("PRAGMA journal_mode").fetchone()[0] == "wal"
+        assert conn.execute("PRAGMA foreign_keys").fetchone()[0] == 1
+        assert conn.execute("PRAGMA synchronous").fetchone()[0] == 2  # FULL
+
+
+def test_migrations_are_idempotent(app):
+    with app.app_context():
+        conn = db.get_db()
+        version = db.schema_version(conn)
+        assert version == max(n for n, _, _ in db.migration_files())
+        assert db.migrate(conn) == []
+        assert db.schema_version(conn) == version
+
+
+def test_write_rolls_back_everything_on_error(app):
+    with app.app_context():
+        conn = db.get_db()
+        try:
+            with db.write(conn):
+                conn.execute("INSERT INTO projects (name, created_at) VALUES ('half', 'now')")
+                raise RuntimeError("fail half-way")
+        except RuntimeError:
+            pass
+        assert conn.execute("SELECT COUNT(*) FROM projects WHERE name = 'half'").fetchone()[0] == 0
+
+
+def test_login_and_logout(client, auth, people):
+    assert client.get("/").status_code == 302
+    response = auth.login(people["engineer"])
+    assert response.status_code == 302
+    page = client.get("/").get_data(as_text=True)
+    assert "Test quay" in page and "Other job" not in page
+    auth.logout()
+    assert client.get("/").status_code == 302
+
+
+def test_wrong_password_is_refused_and_audited(client, auth, people, app):
+    response = auth.login(people["engineer"], "wrong password")
+    assert response.status_code == 401
+    with app.app_context():
+        rows = audit.entries(db.get_db(), None)
+        assert rows[0]["action"] == "login failed"
+
+
+def test_login_is_rate_limited_after_repeated_failures(client, auth, people, app):
+    for _ in range(app.config["LOGIN_MAX_FAILURES"]):
+        auth.login(people["viewer"], "wrong password")
+    assert auth.login(people["viewer"]).status_code == 429
+
+
+def test_login_form_without_csrf_token_is_rejected(client, people):
+    response = client.post("/login", data={"email": people["engineer"], "password": "x"})
+    assert response.status_code == 400
+
+
+def test_session_cookie_is_httponly_and_samesite(client, auth, people):
+    response = auth.login(people["engineer"])
+    cookie = response.headers.get("Set-Cookie", "")
+    assert "HttpOnly" in cookie and "SameSite=Lax" in cookie
+
+
+def test_every_page_shows_the_caution(client, auth, people):
+    auth.login(people["viewer"])
+    page = client.get("/").get_data(as_text=True)
+    assert "engineer of record" in page and "Caution" in page
+
+
+def test_design_core_does_not_load_web_or_storage_modules():
+    code = ("import sys, design_core; "
+            "bad = [m for m in ('flask', 'sqlite3', 'reportlab', 'PIL', 'fieldapp') if m in sys.modules]; "
+            "print(','.join(bad))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == ""
+
+
+def test_audit_chain_detects_an_edited_row(app):
+    with app.app_context():
+        conn = db.get_db()
+        with db.write(conn):
+            for i in range(3):
+                audit.append(conn, None, "tester", "event", str(i), {"i": i})
+        assert audit.verify_chain(conn, None).ok
+        conn.execute("DROP TRIGGER audit_no_update")
+        conn.execute("UPDATE audit_log SET payload_json = '{\"i\":9}' WHERE seq = 2")
+        report = audit.verify_chain(conn, None)
+        assert not report.ok and "altered" in report.problem
