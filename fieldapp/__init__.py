@@ -69,8 +69,9 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
     db.init_app(app)
     csrf.init_app(app)
 
-    from fieldapp import auth
+    from fieldapp import auth, security
     auth.init_app(app)
+    security.init_app(app)
 
     @app.context_processor
     def _globals():

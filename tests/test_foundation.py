@@ -109,3 +109,13 @@ def test_audit_chain_detects_an_edited_row(app):
         conn.execute("UPDATE audit_log SET payload_json = '{\"i\":9}' WHERE seq = 2")
         report = audit.verify_chain(conn, None)
         assert not report.ok and "altered" in report.problem
+
+
+def test_security_headers_on_every_response(client):
+    response = client.get("/login")
+    csp = response.headers["Content-Security-Policy"]
+    script_src = [d for d in csp.split(";") if d.strip().startswith("script-src")][0]
+    assert "unsafe-inline" not in script_src and "unsafe-eval" not in script_src
+    assert "frame-ancestors 'none'" in csp
+    assert response.headers["X-Content-Type-Options"] == "nosniff"
+    assert "/" not in response.headers.get("Server", "")  # no version leaked
