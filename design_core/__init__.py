@@ -6,8 +6,18 @@ the trade uses mm, and then the name says so (``cover_mm``).
 
 from design_core.checks import CHECK_CODES, MEETS_DESIGN, NEEDS_ENGINEER, Check, PileVerdict
 from design_core.rules import ExposureClass, RuleDoc, Rules
+from design_core.ground import Borrowed, GroundModel, Layer, ground_from_strata
+from design_core.axial import (
+    AxialResult, CapacityCurve, ShaftRow, TensionResult, alpha_api, alpha_factor, axial_capacity,
+    beta_factor, capacity_curve, earth_pressure_k, n_q, pile_area, pile_weight, required_toe_level,
+    tension_capacity, unit_shaft_friction,
+)
 
 __all__ = [
     "CHECK_CODES", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict",
     "ExposureClass", "RuleDoc", "Rules",
+    "Borrowed", "GroundModel", "Layer", "ground_from_strata",
+    "AxialResult", "CapacityCurve", "ShaftRow", "TensionResult", "alpha_api", "alpha_factor",
+    "axial_capacity", "beta_factor", "capacity_curve", "earth_pressure_k", "n_q", "pile_area",
+    "pile_weight", "required_toe_level", "tension_capacity", "unit_shaft_friction",
 ]
