@@ -1,0 +1,356 @@
+"""Lateral resistance of a single pile: Broms ultimate load and a beam on Winkler springs.
+
+``broms_lateral``: Broms, B. B. (1964a) "Lateral resistance of piles in cohesive soils", J. Soil
+Mech. Found. Div. ASCE 90(SM2) 27-63, and (1964b) "...in cohesionless soils", 90(SM3) 123-156;
+equations as restated in Reese & Van Impe, Single Piles and Pile Groups under Lateral Loading,
+Appendix A, and REFERENCES.md section 6.
+
+* Cohesive soil: no resistance over the top 1.5 D, then 9 c_u D per metre.
+* Cohesionless soil: 3 K_p gamma' z D per metre, K_p = tan^2(45 + phi/2).
+
+Each pile fails by the weakest rigid-plastic mechanism: "short" (the soil fails along the whole
+length, the section does not yield) or "long" (a plastic hinge forms where the moment peaks; a
+fixed head adds a hinge at the head). For a fixed head the intermediate mechanism (hinge at the
+head only) is reported as "long" with ``hinges`` = 1. The intermediate equations used here are
+written from statics so that they meet the short and the long mechanisms at their boundaries;
+REFERENCES.md section 6 lists them from memory with the opposite sign on one term (flagged
+there as unverified).
+
+``winkler_pile``: E I y'''' + k(z) y = 0 on 0 <= z <= L (z down from the head), solved by central
+finite differences with two ghost nodes at each end (second-order accurate). Head: free
+(E I y'' = M, E I y''' = H) or fixed (y' = 0, E I y''' = H); toe free (y'' = y''' = 0). The
+closed form for a long pile on uniform springs is Hetenyi (1946), REFERENCES.md section 7.
+Sign: H, M and the deflection are positive in the same sense; the bending moment is E I y''.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+HEADS = ("free", "fixed")
+MIN_STIFFNESS_RATIO = 1e-10   # smallest k h^4 / EI kept in the finite-difference system
+MIN_NODES = 16
+SOILS = ("cohesive", "cohesionless")
+
+
+def _positive(name: str, value, allow_zero: bool = False) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float, np.integer, np.floating)):
+        raise ValueError(f"{name} must be a number, got {value!r}")
+    value = float(value)
+    if not math.isfinite(value) or value < 0.0 or (value == 0.0 and not allow_zero):
+        limit = "zero or more" if allow_zero else "more than zero"
+        raise ValueError(f"{name} must be {limit}, got {value!r}")
+    return value
+
+
+def _solve_increasing(fn: Callable[[float], float], target: float, lo: float, hi: float,
+                      iterations: int = 100) -> float:
+    """x in [lo, hi] with fn(x) = target for fn increasing (bisection; hi grown if needed)."""
+    grow = 0
+    while fn(hi) < target and grow < 200:
+        lo, hi = hi, hi * 2.0
+        grow += 1
+    for _ in range(iterations):
+        mid = 0.5 * (lo + hi)
+        if fn(mid) < target:
+            lo = mid
+        else:
+            hi = mid
+        if hi - lo <= 1e-12 * max(1.0, hi):
+            break
+    return 0.5 * (lo + hi)
+
+
+@dataclass(frozen=True)
+class BromsResult:
+    """Broms ultimate lateral resistance.
+
+    ``ultimate`` (kN) is the smallest mechanism load; ``mode`` is "short" or "long";
+    ``hinges`` the number of plastic hinges (0 short; 1 free-head long or fixed-head
+    intermediate; 2 fixed-head long); ``short`` (kN) the load of the short mechanism and
+    ``long`` (kN) that of the free-head long or fixed-head two-hinge mechanism (inf without a
+    yield moment); ``max_moment`` (kNm) the largest moment in the
+    pile at the ultimate load; ``soil``, ``head`` as given.
+    """
+
+    ultimate: float
+    mode: str
+    hinges: int
+    short: float
+    long: float
+    max_moment: float
+    soil: str
+    head: str
+
+    @property
+    def reason(self) -> str:
+        """One line: the load and the mechanism."""
+        how = "soil fails along the pile" if self.mode == "short" else (
+            f"{self.hinges} plastic hinge{'s' if self.hinges > 1 else ''} in the pile")
+        return (f"Broms ultimate lateral load {self.ultimate:.0f} kN ({self.mode} pile, {self.head} "
+                f"head, {self.soil}: {how})")
+
+
+def _broms_cohesive(cu, d, length, head, e, my):
+    k = 9.0 * cu * d                      # kN per m of pile below 1.5 D
+    lp = max(length - 1.5 * d, 0.0)       # length that resists
+    if head == "free":
+        # short: L - 1.5D = f + g, M_max = H (e + 1.5D + f/2) = 2.25 c_u D g^2 = (k/4) g^2.
+        # With u = H/k: u^2 + (4 e' + 2 L') u - L'^2 = 0, e' = e + 1.5 D.
+        ep = e + 1.5 * d
+        b = 4.0 * ep + 2.0 * lp
+        u = (-b + math.sqrt(b * b + 4.0 * lp * lp)) / 2.0
+        h_short = k * u
+        m_short = h_short * (ep + 0.5 * u)
+        if my is None:
+            return h_short, "short", 0, h_short, math.inf, m_short
+        # long: M_y = H (e + 1.5 D + f/2), f = H/k  ->  H^2/(2k) + e' H - M_y = 0
+        h_long = (-ep + math.sqrt(ep * ep + 2.0 * my / k)) * k
+        if h_short <= h_long:
+            return h_short, "short", 0, h_short, h_long, m_short
+        return h_long, "long", 1, h_short, h_long, my
+    # fixed head (the cap is at the ground: e is not used)
+    e = 0.0
+    h_short = k * lp
+    m_head = h_short * (0.5 * length + 0.75 * d)
+    if my is None:
+        return h_short, "short", 0, h_short, math.inf, m_head
+    ep = 1.5 * d
+    # long: hinges at the head and at depth: 2 M_y = H (1.5D + f/2)
+    h_long = (-ep + math.sqrt(ep * ep + 4.0 * my / k)) * k
+    if m_head <= my:
+        return h_short, "short", 0, h_short, h_long, m_head
+    # intermediate: hinge at the head; zero shear at 1.5D + f, f = H/k, g = L' - f:
+    # H (1.5D + f/2) - M_y = 2.25 c_u D g^2  (moment at zero shear = moment of the lower part)
+    def excess(f):
+        return k * f * (e + 1.5 * d + 0.5 * f) - 0.25 * k * (lp - f) ** 2
+    f_i = _solve_increasing(excess, my, 0.0, max(lp, 1e-9))
+    f_i = min(f_i, lp)
+    h_int = k * f_i
+    m_depth = 0.25 * k * (lp - f_i) ** 2
+    if m_depth <= my:
+        return h_int, "long", 1, h_short, h_long, my
+    return h_long, "long", 2, h_short, h_long, my
+
+
+def _broms_cohesionless(gamma, phi, d, length, head, e, my):
+    kp = math.tan(math.radians(45.0 + phi / 2.0)) ** 2
+    g = gamma * d * kp                    # resistance 3 g z per m of pile
+
+    def f_of(h):                          # depth of zero shear: 1.5 g f^2 = H
+        return math.sqrt(h / (1.5 * g))
+
+    if head == "free":
+        h_short = 0.5 * g * length ** 3 / (e + length)
+        m_short = h_short * (e + 2.0 / 3.0 * f_of(h_short))
+        if my is None:
+            return h_short, "short", 0, h_short, math.inf, m_short
+        h_long = _solve_increasing(lambda h: h * (e + 2.0 / 3.0 * f_of(h)), my, 0.0, 1.0)
+        if h_short <= h_long:
+            return h_short, "short", 0, h_short, h_long, m_short
+        return h_long, "long", 1, h_short, h_long, my
+    # fixed head (the cap is at the ground: e is not used)
+    h_short = 1.5 * g * length ** 2
+    m_head = 2.0 / 3.0 * h_short * length
+    if my is None:
+        return h_short, "short", 0, h_short, math.inf, m_head
+    # long: hinges at the head and at the depth of zero shear: 2 M_y = H (2/3) f
+    h_long = _solve_increasing(lambda h: h * 2.0 / 3.0 * f_of(h), 2.0 * my, 0.0, 1.0)
+    if m_head <= my:
+        return h_short, "short", 0, h_short, h_long, m_head
+    # intermediate: rotation about the toe with a hinge at the head: H L = 0.5 g L^3 + M_y
+    h_int = (0.5 * g * length ** 3 + my) / length
+    m_depth = 2.0 / 3.0 * h_int * f_of(h_int) - my if f_of(h_int) < length else 0.0
+    if m_depth <= my:
+        return h_int, "long", 1, h_short, h_long, my
+    return h_long, "long", 2, h_short, h_long, my
+
+
+def broms_lateral(soil: str, diameter: float, length: float, head: str = "free",
+                  eccentricity: float = 0.0, cu: float | None = None,
+                  unit_weight: float | None = None, phi: float | None = None,
+                  yield_moment: float | None = None) -> BromsResult:
+    """Broms (1964) ultimate lateral load (kN) of a single pile.
+
+    soil "cohesive" (``cu`` undrained strength, kPa) or "cohesionless" (``unit_weight`` the
+    effective unit weight gamma', kN/m3, and ``phi`` degrees); diameter and embedded length (m);
+    head "free" or "fixed"; eccentricity e (m) the height of the load above the ground (free
+    head only: Broms' fixed head is a cap at the ground);
+    yield_moment M_y (kNm) of the section (None: the section never yields, short mode only).
+    """
+    if soil not in SOILS:
+        raise ValueError(f"soil must be cohesive or cohesionless, got {soil!r}")
+    if head not in HEADS:
+        raise ValueError(f"head must be free or fixed, got {head!r}")
+    d = _positive("diameter", diameter)
+    length = _positive("length", length)
+    e = _positive("eccentricity", eccentricity, allow_zero=True)
+    my = None if yield_moment is None else _positive("yield_moment", yield_moment, allow_zero=True)
+    if soil == "cohesive":
+        if cu is None:
+            raise ValueError("cu is required for cohesive soil")
+        out = _broms_cohesive(_positive("cu", cu), d, length, head, e, my)
+    else:
+        if unit_weight is None or phi is None:
+            raise ValueError("unit_weight and phi are required for cohesionless soil")
+        phi = _positive("phi", phi)
+        if phi >= 60.0:
+            raise ValueError(f"phi must be below 60 degrees, got {phi:g}")
+        out = _broms_cohesionless(_positive("unit_weight", unit_weight), phi, d, length, head, e, my)
+    ultimate, mode, hinges, short, long_, mmax = out
+    return BromsResult(ultimate=float(ultimate), mode=mode, hinges=hinges, short=float(short),
+                       long=float(long_), max_moment=float(mmax), soil=soil, head=head)
+
+
+# ------------------------------------------------------------------------------------------
+# Beam on Winkler springs
+# ------------------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class WinklerResult:
+    """Deflected shape of a laterally loaded pile on linear springs.
+
+    ``depth`` (m below the head), ``deflection`` (m), ``moment`` (kNm, E I y''), ``rotation``
+    (rad) arrays at the nodes; ``head_deflection`` (m), ``head_rotation`` (rad), ``max_moment``
+    (kNm, largest absolute) and ``max_moment_depth`` (m).
+    """
+
+    depth: np.ndarray
+    deflection: np.ndarray
+    moment: np.ndarray
+    rotation: np.ndarray
+
+    @property
+    def head_deflection(self) -> float:
+        """Deflection at the head (m)."""
+        return float(self.deflection[0])
+
+    @property
+    def head_rotation(self) -> float:
+        """Rotation at the head (rad)."""
+        return float(self.rotation[0])
+
+    @property
+    def max_moment(self) -> float:
+        """Largest absolute bending moment (kNm)."""
+        return float(np.max(np.abs(self.moment)))
+
+    @property
+    def max_moment_depth(self) -> float:
+        """Depth of the largest absolute moment (m)."""
+        return float(self.depth[int(np.argmax(np.abs(self.moment)))])
+
+
+def _spring_array(spring, depth: np.ndarray) -> np.ndarray:
+    if callable(spring):
+        k = np.asarray(spring(depth), dtype=float) * np.ones_like(depth)
+    elif np.ndim(spring) == 0:
+        k = np.full_like(depth, _positive("spring", spring, allow_zero=True))
+    else:
+        k = np.asarray(spring, dtype=float)
+        if k.shape != depth.shape:
+            raise ValueError(f"spring array must have nodes + 1 = {depth.size} values, got {k.size}")
+    if not np.all(np.isfinite(k)) or np.any(k < 0.0):
+        raise ValueError("spring must be finite and not negative at every depth")
+    if not np.any(k > 0.0):
+        raise ValueError("spring must be more than zero somewhere along the pile")
+    return k
+
+
+def _winkler_matrix(c: np.ndarray, head: str) -> np.ndarray:
+    """FD matrix (times h^4/EI) for y_0..y_n with the ghost nodes eliminated."""
+    n1 = c.size
+    a = np.zeros((n1, n1))
+    idx = np.arange(n1)
+    a[idx, idx] = 6.0 + c
+    a[idx[:-1], idx[:-1] + 1] = -4.0
+    a[idx[1:], idx[1:] - 1] = -4.0
+    a[idx[:-2], idx[:-2] + 2] = 1.0
+    a[idx[2:], idx[2:] - 2] = 1.0
+    if head == "free":
+        # y_-1 = 2y0 - y1 + h^2 M/EI ; y_-2 = 4y0 - 4y1 + y2 + 2h^2 M/EI - 2h^3 H/EI
+        a[0, :3] = (2.0 + c[0], -4.0, 2.0)
+        a[1, :4] = (-2.0, 5.0 + c[1], -4.0, 1.0)
+    else:
+        # y_-1 = y1 ; y_-2 = y2 - 2h^3 H/EI
+        a[0, :3] = (6.0 + c[0], -8.0, 2.0)
+        a[1, :4] = (-4.0, 7.0 + c[1], -4.0, 1.0)
+    # toe: y_n+1 = 2yn - y_n-1 ; y_n+2 = 4yn - 4y_n-1 + y_n-2
+    a[-1, -3:] = (2.0, -4.0, 2.0 + c[-1])
+    a[-2, -4:] = (1.0, -4.0, 5.0 + c[-2], -2.0)
+    return a
+
+
+def winkler_unit_responses(ei: float, length: float, spring, head: str = "free",
+                           nodes: int = 200):
+    """Depth (m) and the deflections (m) for a unit head shear (1 kN) and a unit head moment
+    (1 kNm), as two columns; the system is linear so any load is a sum of these."""
+    ei = _positive("ei", ei)
+    length = _positive("length", length)
+    if head not in HEADS:
+        raise ValueError(f"head must be free or fixed, got {head!r}")
+    if isinstance(nodes, bool) or not isinstance(nodes, (int, np.integer)) or not 8 <= nodes <= 5000:
+        raise ValueError(f"nodes must be a whole number from 8 to 5000, got {nodes!r}")
+    k = _spring_array(spring, np.linspace(0.0, length, nodes + 1))
+    # A pile much stiffer than its springs makes the system nearly singular (a free body on
+    # soft springs) and round-off grows as (EI / k h^4). Keep k h^4 / EI >= 1e-10 by using
+    # fewer, longer intervals; such a pile is near rigid, which coarse meshes represent well.
+    k_mean = float(np.mean(k))
+    if k_mean > 0.0:
+        h_min = (MIN_STIFFNESS_RATIO * ei / k_mean) ** 0.25
+        fewer = max(MIN_NODES, int(length / h_min))
+        if fewer < nodes:
+            nodes = fewer
+            k = _spring_array(spring, np.linspace(0.0, length, nodes + 1))
+    depth = np.linspace(0.0, length, nodes + 1)
+    h = length / nodes
+    a = _winkler_matrix(k * h ** 4 / ei, head)
+    rhs = np.zeros((nodes + 1, 2))
+    rhs[0, 0] = 2.0 * h ** 3 / ei                    # unit H
+    if head == "free":
+        rhs[0, 1] = 2.0 * h ** 2 / ei                # unit M
+        rhs[1, 1] = -h ** 2 / ei
+    y = np.linalg.solve(a, rhs)
+    return depth, y
+
+
+def winkler_pile(ei: float, length: float, spring, shear: float, moment: float = 0.0,
+                 head: str = "free", nodes: int = 200) -> WinklerResult:
+    """Laterally loaded pile on linear Winkler springs, by finite differences.
+
+    ei flexural rigidity (kNm2); length (m); spring the lateral stiffness per unit length of
+    pile k = k_h D (kN/m per m): a number, an array of nodes + 1 values at the nodes, or a
+    function of depth below the head (m) returning them; shear H (kN) and moment M (kNm) at the
+    head (M is ignored, and the head moment is a result, when head is "fixed"); nodes the number
+    of equal intervals (fewer are used for a pile so stiff against its springs that the system
+    would lose precision, k h^4 / EI < 1e-10; the result's ``depth`` shows the nodes used).
+    Dense solve of the pentadiagonal system with numpy.linalg.solve (LU with pivoting).
+    """
+    if head == "fixed":
+        moment = 0.0
+    shear = float(shear)
+    moment = float(moment)
+    if not (math.isfinite(shear) and math.isfinite(moment)):
+        raise ValueError("shear and moment must be finite numbers")
+    depth, unit = winkler_unit_responses(ei, length, spring, head, nodes)
+    y = unit[:, 0] * shear + unit[:, 1] * moment
+    return _result(depth, y, ei, head, shear, moment)
+
+
+def _result(depth, y, ei, head, shear, moment) -> WinklerResult:
+    h = depth[1] - depth[0]
+    n = y.size
+    ypad = np.empty(n + 2)
+    ypad[1:-1] = y
+    if head == "free":
+        ypad[0] = 2.0 * y[0] - y[1] + h * h * moment / ei
+    else:
+        ypad[0] = y[1]
+    ypad[-1] = 2.0 * y[-1] - y[-2]
+    curvature = (ypad[:-2] - 2.0 * ypad[1:-1] + ypad[2:]) / (h * h)
+    rotation = (ypad[2:] - ypad[:-2]) / (2.0 * h)
+    return WinklerResult(depth=depth, deflection=y, moment=ei * curvature, rotation=rotation)

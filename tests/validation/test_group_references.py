@@ -1,0 +1,77 @@
+"""Rigid-cap load sharing against REFERENCES.md section 11 (general biaxial formula with the
+product of inertia; symmetric form as in Bowles, Foundation Analysis and Design, pile caps)."""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from design_core.group import group_shares
+
+DESIGN = [(1.2, 1.2), (-1.2, 1.2), (-1.2, -1.2), (1.2, -1.2)]
+AS_BUILT = [(1.3, 1.2), (-1.2, 1.2), (-1.2, -1.2), (1.2, -1.2)]
+
+
+def test_symmetric_group_design_positions():
+    # REFERENCES.md section 11: N 4000, Mx 400, My 200 -> 1125.0, 1041.67, 875.0, 958.33 kN
+    p = group_shares(DESIGN, 4000.0, mx=400.0, my=200.0)
+    assert p == pytest.approx([1125.0, 1041.67, 875.0, 958.33], abs=0.01)
+
+
+def test_one_pile_100_mm_out_of_position():
+    # REFERENCES.md section 11: pile 1 at (1.30, 1.20) -> 1102.42, 1064.25, 898.35, 934.99 kN
+    p = group_shares(AS_BUILT, 4000.0, mx=400.0, my=200.0)
+    assert p == pytest.approx([1102.42, 1064.25, 898.35, 934.99], abs=0.01)
+
+
+def test_product_of_inertia_matters():
+    # REFERENCES.md section 11: ignoring Ixy gives 1104.56, 1062.94, 896.28, 936.23 (wrong by ~0.2 %)
+    p = group_shares(AS_BUILT, 4000.0, mx=400.0, my=200.0)
+    assert abs(p[0] - 1104.56) > 2.0
+
+
+def test_out_of_position_pile_under_vertical_load_only():
+    # REFERENCES.md section 11: N only -> 979.18, 1020.82, 1019.98, 980.02 kN
+    p = group_shares(AS_BUILT, 4000.0)
+    assert p == pytest.approx([979.18, 1020.82, 1019.98, 980.02], abs=0.01)
+
+
+def test_load_point_off_centre_is_a_moment():
+    # Statics: N at (0.1, 0) about the centroid is the same as N at the centroid plus My = 0.1 N.
+    a = group_shares(DESIGN, 4000.0, load_point=(0.1, 0.0))
+    b = group_shares(DESIGN, 4000.0, my=400.0)
+    assert a == pytest.approx(b)
+
+
+def test_two_piles_share_moment_along_their_line():
+    # Statics: two piles 2 m apart, N 1000, My 100 -> 500 +- 100/2 kN
+    assert group_shares([(1, 0), (-1, 0)], 1000.0, my=100.0) == pytest.approx([550.0, 450.0])
+    with pytest.raises(ValueError, match="line"):
+        group_shares([(1, 0), (-1, 0)], 1000.0, mx=100.0)
+
+
+def test_single_pile_takes_the_load():
+    assert group_shares([(0.0, 0.0)], 750.0) == pytest.approx([750.0])
+    with pytest.raises(ValueError, match="single pile"):
+        group_shares([(0.0, 0.0)], 750.0, mx=10.0)
+
+
+coords = st.floats(-5.0, 5.0, allow_nan=False)
+
+
+@settings(max_examples=200, deadline=None, database=None)
+@given(pts=st.lists(st.tuples(coords, coords), min_size=3, max_size=12),
+       n=st.floats(-5000, 20000), mx=st.floats(-3000, 3000), my=st.floats(-3000, 3000),
+       lx=st.floats(-1, 1), ly=st.floats(-1, 1))
+def test_equilibrium_holds_for_any_group(pts, n, mx, my, lx, ly):
+    # REFERENCES.md section 11 equilibrium: sum P = N, sum P x = My + N x_load, sum P y = Mx + N y_load
+    xy = np.array(pts)
+    dx, dy = xy[:, 0] - xy[:, 0].mean(), xy[:, 1] - xy[:, 1].mean()
+    ixx, iyy, ixy = dx @ dx, dy @ dy, dx @ dy
+    if ixx * iyy - ixy ** 2 < 1e-3 * max(ixx + iyy, 1e-9) ** 2:
+        return   # piles nearly on one line or one point: covered by the tests above
+    p = group_shares(xy, n, mx=mx, my=my, load_point=(lx, ly))
+    scale = abs(n) + abs(mx) + abs(my) + 1.0
+    assert p.sum() == pytest.approx(n, abs=1e-6 * scale)
+    assert p @ xy[:, 0] == pytest.approx(my + n * lx, abs=1e-6 * scale * 10)
+    assert p @ xy[:, 1] == pytest.approx(mx + n * ly, abs=1e-6 * scale * 10)
