@@ -62,6 +62,13 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
         LOGIN_MAX_FAILURES=5,
         LOGIN_WINDOW_S=300,
     )
+    if os.environ.get("TOELINE_PROXY") == "1":
+        # Behind a TLS-terminating reverse proxy (deploy/): trust one hop of X-Forwarded-*
+        # and send the session cookie over HTTPS only.
+        from werkzeug.middleware.proxy_fix import ProxyFix
+
+        app.wsgi_app = ProxyFix(app.wsgi_app, x_for=1, x_proto=1, x_host=1)
+        app.config["SESSION_COOKIE_SECURE"] = True
     if test_config:
         app.config.update(test_config)
 
