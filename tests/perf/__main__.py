@@ -1,0 +1,87 @@
+"""Run every benchmark in one go and print a table of figures, targets and ratios.
+
+    python -m tests.perf                 # all benchmarks
+    python -m tests.perf --only axial    # the modules whose name contains "axial"
+    python -m tests.perf --json out.json # also write the figures as JSON (numbers only)
+
+Each ``tests/perf/bench_*.py`` has ``run() -> dict`` of figures. Targets (issue 8) are listed
+below; the table says whether each figure met its target on this machine. Nothing here is a
+test: timing never fails the test suite.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import json
+import math
+import os
+import platform
+import pkgutil
+import sys
+import time
+from pathlib import Path
+
+# figure -> (target, "max" or "min", unit)
+TARGETS = {
+    "recheck_ms": (2.0, "max", "ms"),
+    "project_5000_s": (2.0, "max", "s"),
+    "curve_ms": (1.0, "max", "ms"),
+    "put_p95_ms": (50.0, "max", "ms"),
+    "list_p95_ms": (100.0, "max", "ms"),
+    "put_vs_healthz": (0.25, "min", "ratio"),
+    "web_errors": (0, "max", "count"),
+    "photo_ms": (300.0, "max", "ms"),
+    "photo_vs_full_decode": (None, "", "ratio"),
+    "record_1000_s": (60.0, "max", "s"),
+    "record_peak_mb": (400.0, "max", "MB"),
+    "record_5000_vs_1000": (5.5, "max", "ratio"),
+    "sync_s": (60.0, "max", "s"),
+    "sync_duplicates": (0, "max", "count"),
+}
+
+
+def machine() -> str:
+    """A one-line description of the machine the figures came from."""
+    return (f"{platform.processor() or platform.machine()}, {os.cpu_count()} cores, "
+            f"Python {platform.python_version()}, {platform.system()} {platform.release()}")
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="python -m tests.perf")
+    parser.add_argument("--json", dest="json_path", help="write the figures to this JSON file")
+    parser.add_argument("--only", default="", help="run only modules whose name contains this")
+    args = parser.parse_args(argv)
+
+    here = Path(__file__).resolve().parent
+    figures: dict[str, float] = {}
+    for info in sorted(pkgutil.iter_modules([str(here)]), key=lambda m: m.name):
+        if not info.name.startswith("bench_") or args.only not in info.name:
+            continue
+        module = importlib.import_module(f"tests.perf.{info.name}")
+        started = time.perf_counter()
+        print(f"running {info.name} ...", flush=True)
+        result = module.run()
+        print(f"  done in {time.perf_counter() - started:.1f} s", flush=True)
+        figures.update({k: float(v) for k, v in result.items()})
+
+    print()
+    print(f"machine: {machine()}")
+    print(f"{'figure':<24}{'value':>14}  {'target':>14}  met")
+    for name, value in figures.items():
+        target, sense, unit = TARGETS.get(name, (None, "", ""))
+        if target is None:
+            shown, met = "-", ""
+        else:
+            shown = f"{'<=' if sense == 'max' else '>='} {target:g} {unit}"
+            met = "yes" if (value <= target if sense == "max" else value >= target) else "NO"
+        print(f"{name:<24}{value:>14.4g}  {shown:>14}  {met}")
+    if args.json_path:
+        clean = {k: (v if math.isfinite(v) else None) for k, v in figures.items()}
+        Path(args.json_path).write_text(json.dumps(clean, indent=1))
+        print(f"figures written to {args.json_path}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
