@@ -52,10 +52,19 @@ def init(ctx, data_dir):
 @click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
 @click.option("--port", default=8000, show_default=True, type=int)
 @click.option("--threads", default=8, show_default=True, type=int)
+@click.option("--https", "use_https", is_flag=True,
+              help="Serve HTTPS (cheroot) with a site certificate authority kept in the data folder.")
+@click.option("--name", "names", multiple=True,
+              help="With --https: an extra host name or address for the certificate (repeatable).")
 @click.pass_context
-def serve(ctx, data_dir, host, port, threads):
-    """Serve the app with waitress (the production WSGI server)."""
+def serve(ctx, data_dir, host, port, threads, use_https, names):
+    """Serve the app with waitress (the production WSGI server), or over HTTPS with --https."""
     app = _app(ctx, data_dir)
+    if use_https:
+        from fieldapp import https
+
+        https.serve(app, host, port, threads, list(names), echo=click.echo)
+        return
     _serve(app, host, port, threads)
 
 
