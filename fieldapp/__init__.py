@@ -88,7 +88,7 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
     def healthz():
         return {"ok": True}
 
-    for module in ("piles", "ground", "rules", "rig", "review", "record.views", "api", "offline"):
+    for module in ("piles", "ground", "rules", "rig", "review", "record.views", "api", "offline", "openapi"):
         _register_if_present(app, module)
     return app
 
