@@ -1,0 +1,310 @@
+"""The pile schedule (PRODUCT.md section 3): one row per pile, design values and its progress.
+
+``PileRow`` carries every stored column plus the cap mark and ground model name; ``pile_design``
+turns a row into the ``design_core.inputs.PileDesign`` the checks take (diameter in m).
+``FIELDS`` lists each schedule value with its unit and allowed range, used by the forms and
+the CSV/XLSX import so both give the same messages.
+"""
+
+from __future__ import annotations
+
+import math
+import sqlite3
+from dataclasses import dataclass, fields
+
+from design_core.inputs import HEAD_CONDITIONS, PILE_TYPES, PileDesign
+from fieldapp.queries.caps import natural_key
+
+PROGRESS = ("planned", "boring", "concreted", "logged")
+VERDICTS = ("meets design", "needs engineer")
+
+
+@dataclass(frozen=True)
+class FieldSpec:
+    """One schedule value: column name, label, unit, kind (number/int/text/choice) and range."""
+
+    name: str
+    label: str
+    unit: str = ""
+    kind: str = "number"
+    lo: float | None = None
+    hi: float | None = None
+    required: bool = True
+    default: object = None
+    choices: tuple[str, ...] = ()
+
+    def range_text(self) -> str:
+        """The allowed range in words, e.g. '150 to 3,000 mm'."""
+        unit = f" {self.unit}" if self.unit else ""
+        if self.kind == "choice":
+            return "one of " + ", ".join(self.choices)
+        if self.lo is not None and self.hi is not None:
+            if self.lo == -self.hi:
+                return f"within ±{_num(self.hi)}{unit}"
+            return f"{_num(self.lo)} to {_num(self.hi)}{unit}"
+        return "a number"
+
+
+def _num(x: float) -> str:
+    return f"{x:,.0f}" if float(x).is_integer() else f"{x:,g}"
+
+
+LEVEL_LIMIT_M = 10_000.0
+COORD_LIMIT_M = 10_000_000.0
+
+# The design values of a pile, in schedule order (cap and ground model are looked up by name).
+FIELDS: tuple[FieldSpec, ...] = (
+    FieldSpec("pile_type", "Pile type", kind="choice", choices=PILE_TYPES, default="bored"),
+    FieldSpec("easting_m", "Easting", "m", lo=-COORD_LIMIT_M, hi=COORD_LIMIT_M),
+    FieldSpec("northing_m", "Northing", "m", lo=-COORD_LIMIT_M, hi=COORD_LIMIT_M),
+    FieldSpec("cutoff_level_m", "Cut-off level", "m", lo=-LEVEL_LIMIT_M, hi=LEVEL_LIMIT_M),
+    FieldSpec("toe_level_m", "Toe level", "m", lo=-LEVEL_LIMIT_M, hi=LEVEL_LIMIT_M),
+    FieldSpec("diameter_mm", "Diameter", "mm", lo=150, hi=3000),
+    FieldSpec("compression_kn", "Compression", "kN", lo=0, hi=1_000_000, required=False, default=0.0),
+    FieldSpec("tension_kn", "Tension", "kN", lo=0, hi=1_000_000, required=False, default=0.0),
+    FieldSpec("shear_kn", "Head shear", "kN", lo=0, hi=1_000_000, required=False, default=0.0),
+    FieldSpec("moment_knm", "Head moment", "kNm", lo=0, hi=1_000_000, required=False, default=0.0),
+    FieldSpec("n_bars", "Number of bars", "", kind="int", lo=0, hi=200, required=False, default=0),
+    FieldSpec("bar_mm", "Bar diameter", "mm", lo=0, hi=63, required=False, default=0.0),
+    FieldSpec("cage_length_m", "Cage length", "m", lo=0, hi=200, required=False, default=0.0),
+    FieldSpec("fc_mpa", "Concrete strength f_c", "MPa", lo=10, hi=120, required=False, default=32.0),
+    FieldSpec("fy_mpa", "Steel strength f_y", "MPa", lo=200, hi=700, required=False, default=500.0),
+    FieldSpec("exposure_class", "Exposure class", kind="text", required=False, default="XC2"),
+    FieldSpec("cover_mm", "Design cover", "mm", lo=0, hi=300, required=False, default=75.0),
+    FieldSpec("head", "Head", kind="choice", choices=HEAD_CONDITIONS, required=False, default="free"),
+)
+FIELD_BY_NAME = {f.name: f for f in FIELDS}
+MARK_MAX = 40
+
+
+def check_value(spec: FieldSpec, value) -> tuple[object, str | None]:
+    """(clean value, None) or (None, message naming the field and its allowed range).
+
+    ``value`` may be a string (from a file or form) or a number; blanks take the default of an
+    optional field.
+    """
+    if isinstance(value, str):
+        value = value.strip()
+    if value is None or value == "":
+        if spec.required:
+            return None, f"{spec.name} is required ({spec.range_text()})"
+        return spec.default, None
+    if spec.kind == "choice":
+        text = str(value).strip().lower()
+        if text not in spec.choices:
+            return None, f"{spec.name} must be {spec.range_text()}, got {value!r}"
+        return text, None
+    if spec.kind == "text":
+        text = str(value).strip()
+        if len(text) > 40:
+            return None, f"{spec.name} must be at most 40 characters"
+        return text, None
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return None, f"{spec.name} must be a number ({spec.range_text()}), got {value!r}"
+    if not math.isfinite(number):
+        return None, f"{spec.name} must be a finite number ({spec.range_text()})"
+    if spec.kind == "int":
+        if not number.is_integer():
+            return None, f"{spec.name} must be a whole number ({spec.range_text()}), got {value!r}"
+        number = int(number)
+    if (spec.lo is not None and number < spec.lo) or (spec.hi is not None and number > spec.hi):
+        return None, f"{spec.name} must be {spec.range_text()}, got {_num(number)}"
+    return number, None
+
+
+def check_pile(values: dict) -> list[tuple[str, str]]:
+    """Cross-field checks on clean values: [(field, message)]; empty when consistent."""
+    errors = []
+    cut, toe = values.get("cutoff_level_m"), values.get("toe_level_m")
+    if cut is not None and toe is not None and toe >= cut:
+        errors.append(("toe_level_m", f"toe_level_m ({toe:g} m) must be below cutoff_level_m ({cut:g} m)"))
+    n_bars, bar = values.get("n_bars"), values.get("bar_mm")
+    if n_bars and bar is not None and bar < 6:
+        errors.append(("bar_mm", f"bar_mm must be 6 to 63 mm when n_bars is {n_bars}, got {bar:g}"))
+    if n_bars is not None and 0 < n_bars < 3:
+        errors.append(("n_bars", f"n_bars must be 0 or 3 to 200 bars in a circular cage, got {n_bars}"))
+    cage = values.get("cage_length_m")
+    if cut is not None and toe is not None and cage and cage > cut - toe + 1e-9:
+        errors.append(("cage_length_m", f"cage_length_m ({cage:g} m) must be at most the pile length "
+                       f"{cut - toe:g} m (cut-off to toe)"))
+    return errors
+
+
+@dataclass(frozen=True)
+class PileRow:
+    """One pile of the schedule: every stored column, with its cap mark and ground model name."""
+
+    id: int
+    project_id: int
+    mark: str
+    cap_id: int | None
+    cap_mark: str | None
+    pile_type: str
+    easting_m: float
+    northing_m: float
+    cutoff_level_m: float
+    toe_level_m: float
+    diameter_mm: float
+    ground_model_id: int
+    ground_model_name: str
+    compression_kn: float
+    tension_kn: float
+    shear_kn: float
+    moment_knm: float
+    n_bars: int
+    bar_mm: float
+    cage_length_m: float
+    fc_mpa: float
+    fy_mpa: float
+    exposure_class: str
+    cover_mm: float
+    head: str
+    progress: str
+    verdict: str | None
+    worst_utilisation: float | None
+    current_version: int
+
+    @property
+    def length_m(self) -> float:
+        """Design length from cut-off to toe (m)."""
+        return self.cutoff_level_m - self.toe_level_m
+
+
+_ROW_NAMES = [f.name for f in fields(PileRow)]
+_SELECT = ("SELECT p.*, c.mark AS cap_mark, g.name AS ground_model_name FROM piles p "
+           "LEFT JOIN caps c ON c.id = p.cap_id JOIN ground_models g ON g.id = p.ground_model_id ")
+
+
+def _pile(row) -> PileRow | None:
+    return PileRow(*(row[name] for name in _ROW_NAMES)) if row else None
+
+
+# Sort keys offered on the Piles screen: name -> key on a PileRow.
+SORTS = {
+    "mark": lambda p: natural_key(p.mark),
+    "cap": lambda p: (natural_key(p.cap_mark or ""), natural_key(p.mark)),
+    "type": lambda p: (p.pile_type, natural_key(p.mark)),
+    "diameter": lambda p: (p.diameter_mm, natural_key(p.mark)),
+    "toe": lambda p: (p.toe_level_m, natural_key(p.mark)),
+    "compression": lambda p: (p.compression_kn, natural_key(p.mark)),
+    "ground": lambda p: (p.ground_model_name, natural_key(p.mark)),
+    "progress": lambda p: (PROGRESS.index(p.progress), natural_key(p.mark)),
+    "verdict": lambda p: ({"needs engineer": 0, "meets design": 1}.get(p.verdict or "", 2),
+                          natural_key(p.mark)),
+    "utilisation": lambda p: (-(p.worst_utilisation if p.worst_utilisation is not None else -1e9),
+                              natural_key(p.mark)),
+}
+
+
+def list_piles(conn: sqlite3.Connection, project_id: int, *, progress: str | None = None,
+               verdict: str | None = None, cap: str | None = None, ground_model_id: int | None = None,
+               pile_type: str | None = None, search: str | None = None, sort: str = "mark",
+               descending: bool = False) -> list[PileRow]:
+    """The project's piles, filtered and sorted.
+
+    Filters (None or '' means any): ``progress`` one of PROGRESS; ``verdict`` one of VERDICTS or
+    'none' (not yet checked); ``cap`` a cap mark; ``ground_model_id``; ``pile_type``; ``search``
+    a part of the mark. ``sort`` is a key of SORTS (unknown keys sort by mark).
+    """
+    sql = _SELECT + "WHERE p.project_id = ?"
+    params: list = [project_id]
+    if progress:
+        sql += " AND p.progress = ?"
+        params.append(progress)
+    if verdict == "none":
+        sql += " AND p.verdict IS NULL"
+    elif verdict:
+        sql += " AND p.verdict = ?"
+        params.append(verdict)
+    if cap:
+        sql += " AND c.mark = ?"
+        params.append(cap)
+    if ground_model_id:
+        sql += " AND p.ground_model_id = ?"
+        params.append(ground_model_id)
+    if pile_type:
+        sql += " AND p.pile_type = ?"
+        params.append(pile_type)
+    if search:
+        sql += " AND LOWER(p.mark) LIKE ? ESCAPE '\\'"
+        escaped = search.lower().replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_")
+        params.append(f"%{escaped}%")
+    piles = [_pile(r) for r in conn.execute(sql, params).fetchall()]
+    return sorted(piles, key=SORTS.get(sort, SORTS["mark"]), reverse=descending)
+
+
+def get_pile(conn: sqlite3.Connection, project_id: int, mark: str) -> PileRow | None:
+    """The project's pile with this mark, or None."""
+    return _pile(conn.execute(_SELECT + "WHERE p.project_id = ? AND p.mark = ?",
+                              (project_id, mark)).fetchone())
+
+
+def get_pile_by_id(conn: sqlite3.Connection, project_id: int, pile_id: int) -> PileRow | None:
+    """The project's pile with this id, or None."""
+    return _pile(conn.execute(_SELECT + "WHERE p.project_id = ? AND p.id = ?",
+                              (project_id, pile_id)).fetchone())
+
+
+def count(conn: sqlite3.Connection, project_id: int) -> int:
+    """How many piles the project has."""
+    return conn.execute("SELECT COUNT(*) FROM piles WHERE project_id = ?", (project_id,)).fetchone()[0]
+
+
+def pile_design(row: PileRow) -> PileDesign:
+    """The design_core PileDesign of a schedule row (diameter in m from diameter_mm)."""
+    return PileDesign(
+        mark=row.mark, diameter=row.diameter_mm / 1000.0, cutoff_level=row.cutoff_level_m,
+        toe_level=row.toe_level_m, easting=row.easting_m, northing=row.northing_m,
+        pile_type=row.pile_type, compression=row.compression_kn, tension=row.tension_kn,
+        shear=row.shear_kn, moment=row.moment_knm, n_bars=int(row.n_bars), bar_mm=row.bar_mm,
+        cage_length=row.cage_length_m, fc_mpa=row.fc_mpa, fy_mpa=row.fy_mpa,
+        exposure_class=row.exposure_class, cover_mm=row.cover_mm, head=row.head, cap=row.cap_mark)
+
+
+# Columns written by save_pile: the design values plus mark, cap and ground model.
+WRITE_COLUMNS = ("mark", "cap_id", "ground_model_id") + tuple(f.name for f in FIELDS)
+
+
+def save_pile(conn: sqlite3.Connection, project_id: int, values: dict, pile_id: int | None = None) -> int:
+    """Insert (or, given ``pile_id``, update) a pile's design values; returns its id.
+
+    ``values`` holds every name of WRITE_COLUMNS, already checked. Progress, verdict and
+    records are left as they are. ValueError when the mark is taken by another pile of the
+    project. Call inside db.write.
+    """
+    mark = (values.get("mark") or "").strip()
+    if not mark or len(mark) > MARK_MAX:
+        raise ValueError(f"mark is required (1 to {MARK_MAX} characters)")
+    clash = conn.execute("SELECT id FROM piles WHERE project_id = ? AND mark = ? AND id IS NOT ?",
+                         (project_id, mark, pile_id)).fetchone()
+    if clash:
+        raise ValueError(f"mark: another pile is already called {mark!r}")
+    data = dict(values, mark=mark)
+    cols = list(WRITE_COLUMNS)
+    if pile_id is None:
+        cur = conn.execute(
+            f"INSERT INTO piles (project_id, {', '.join(cols)}) VALUES (?{', ?' * len(cols)})",
+            [project_id] + [data[c] for c in cols])
+        return cur.lastrowid
+    cur = conn.execute(
+        f"UPDATE piles SET {', '.join(c + ' = ?' for c in cols)} WHERE id = ? AND project_id = ?",
+        [data[c] for c in cols] + [pile_id, project_id])
+    if cur.rowcount != 1:
+        raise LookupError(f"pile {pile_id} is not in project {project_id}")
+    return pile_id
+
+
+def upsert_by_mark(conn: sqlite3.Connection, project_id: int, values: dict) -> tuple[str, int]:
+    """Create the pile or update the one with the same mark: ('created' | 'updated', id)."""
+    row = conn.execute("SELECT id FROM piles WHERE project_id = ? AND mark = ?",
+                       (project_id, values["mark"].strip())).fetchone()
+    if row is None:
+        return "created", save_pile(conn, project_id, values)
+    return "updated", save_pile(conn, project_id, values, row["id"])
+
+
+def as_values(row: PileRow) -> dict:
+    """The design values of a row keyed by WRITE_COLUMNS (for edits and round trips)."""
+    return {name: getattr(row, name) for name in WRITE_COLUMNS}
