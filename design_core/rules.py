@@ -382,3 +382,24 @@ class Rules:
             if f.name == name:
                 return dict(f.metadata)
         raise KeyError(name)
+
+
+def rules_markdown_table(rules: Rules | None = None) -> str:
+    """A Markdown table of every rule: name, label, default value, unit and source.
+
+    README.md carries this table between ``<!-- rules:start -->`` and ``<!-- rules:end -->``;
+    ``tests/test_docs.py`` fails when it is out of date.
+    """
+    rules = rules or Rules()
+    lines = ["| rule | what | default | unit | source |", "|---|---|---|---|---|"]
+    for doc in rules.describe():
+        if doc.name == "exposure_table":
+            value = "; ".join(f"{r.code} {r.cmin_dur_mm:g} mm / C{r.min_strength_mpa:g}"
+                              for r in doc.value)
+        elif isinstance(doc.value, float):
+            value = f"{doc.value:.4g}"
+        else:
+            value = str(doc.value)
+        source = doc.source.replace("|", "/")
+        lines.append(f"| `{doc.name}` | {doc.label} | {value} | {doc.unit} | {source} |")
+    return "\n".join(lines)
