@@ -454,7 +454,7 @@ class _Profile:
         brk = np.unique(np.array([c for c in cand if ground.bottom <= c <= z0]))[::-1]
         # keep only down to the first breakpoint at or below the deepest toe asked for
         last = int(np.searchsorted(-brk, -deepest, side="left"))
-        brk = brk[: min(last, len(brk) - 1) + 1]
+        brk = brk[: max(1, min(last, len(brk) - 1)) + 1]  # at least one stretch
         # in alpha layers add the levels where psi meets a kink of the alpha rule
         kinks = _alpha_kinks(self.rules)
         extra = []

@@ -215,6 +215,14 @@ def test_shaft_above_the_ground_surface_counts_nothing():
     assert above.shaft == pytest.approx(at.shaft, rel=1e-12)
 
 
+def test_toe_at_the_ground_surface_below_a_raised_cut_off():
+    res = axial_capacity(clay(), 0.6, 12.0, 10.0)
+    assert res.shaft == 0.0 and res.layers == ()
+    assert res.base == pytest.approx(9 * 60.0 * math.pi * 0.09)
+    curve = capacity_curve(clay(), 0.6, 12.0, [10.0, 9.0])
+    assert curve.shaft[0] == 0.0 and curve.base[0] == pytest.approx(res.base)
+
+
 def test_sand_base_is_held_below_the_critical_depth_and_limited():
     g = GroundModel([Layer(10.0, -40.0, "cohesionless", 20.0, phi=36.0)], 10.0)
     deep = capacity_curve(g, 0.5, 10.0, [5.0, -5.0, -30.0])  # zc = 10 m below the surface
