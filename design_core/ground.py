@@ -214,7 +214,7 @@ class GroundModel:
             if layer.bottom < self.water_level < layer.top:
                 cuts.append(self.water_level)
             cuts.append(layer.bottom)
-            for a, b in zip(cuts[:-1], cuts[1:]):
+            for a, b in zip(cuts[:-1], cuts[1:], strict=True):
                 submerged = a <= self.water_level  # segments never straddle the water level
                 gamma = layer.unit_weight - gamma_w if submerged else layer.unit_weight
                 if gamma < 0.0:
@@ -327,7 +327,7 @@ def ground_from_strata(ground: GroundModel, platform_level: float, strata: Seque
             f"({ground.top:g} to {ground.bottom:g} m)")
     strata = list(strata)
     order = sorted(range(len(strata)), key=lambda k: strata[k].from_depth)
-    for a, b in zip(order[:-1], order[1:]):
+    for a, b in zip(order[:-1], order[1:], strict=True):
         if strata[b].from_depth < strata[a].to_depth - LEVEL_TOL_M:
             raise ValueError(
                 f"strata[{b}] ({strata[b].from_depth:g}-{strata[b].to_depth:g} m) overlaps "
