@@ -1,0 +1,246 @@
+"""The JSON API under ``/api/v1`` (the tablet page and its offline outbox use the same calls).
+
+Routes (all need the session cookie; writes also the ``X-CSRFToken`` header):
+
+* ``GET  /session`` -> ``{"user", "name", "role", "csrf_token"}``
+* ``GET  /projects`` -> ``{"projects": [{"id", "name", "site"}]}``
+* ``GET  /projects/<id>/piles`` -> ``{"project", "piles": [...design values, progress, verdict,
+  version...]}``
+* ``GET  /projects/<id>/piles/<mark>`` -> the rig data of one pile (``services.rig_data``)
+* ``PUT  /projects/<id>/piles/<mark>/record`` with ``{"client_id", "base_version", "record"}``
+  -> 200 ``{"version", "verdict", "checks", ...}``; same client_id -> same answer;
+  409 ``{"error": "conflict", "server": {...}}``; 422 ``{"errors": {field: message}}``
+* ``GET  /projects/<id>/piles/<mark>/history`` -> ``{"mark", "versions": [...]}``
+* ``POST /projects/<id>/piles/<mark>/photos`` (multipart ``file``, ``client_id``, ``kind``,
+  ``caption``) -> 201 ``{"id", "sha256"}`` (200 with the same body on a repeat)
+* ``GET  /projects/<id>/piles/<mark>/photos`` -> ``{"photos": [...]}``
+* ``GET  /projects/<id>/photos/<photo_id>/<size>`` size ``thumb``, ``display`` or
+  ``original``: the image file (members only).
+
+Access: not signed in 401; not a member of the project 404 (the project's existence is not
+revealed); a viewer writing 403.
+"""
+
+from __future__ import annotations
+
+import re
+
+from flask import Blueprint, abort, current_app, g, jsonify, request, send_file
+from flask_wtf.csrf import generate_csrf
+from werkzeug.exceptions import RequestEntityTooLarge
+
+from fieldapp import db, photos, services
+from fieldapp.auth import _deny, login_required, project_or_404
+from fieldapp.queries import photos as photos_q
+from fieldapp.queries import piles as piles_q
+from fieldapp.queries import projects, records
+
+bp = Blueprint("api", __name__, url_prefix="/api/v1")
+
+CLIENT_ID = re.compile(r"^[A-Za-z0-9_-]{8,64}$")
+SIZES = ("thumb", "display", "original")
+
+
+def _error(status: int, **body):
+    response = jsonify(body)
+    response.status_code = status
+    return response
+
+
+@bp.errorhandler(RequestEntityTooLarge)
+def _too_large(_exc):
+    return _error(413, error=f"the upload is over {photos.MAX_BYTES // 1_048_576} MB")
+
+
+def _pile_or_404(project_id: int, mark: str):
+    project = project_or_404(project_id)
+    pile = piles_q.get_pile(db.get_db(), project.id, mark)
+    if pile is None:
+        abort(_error(404, error="not found"))
+    return project, pile
+
+
+def _may_record() -> None:
+    if not g.user.can_record:
+        _deny(403)
+
+
+def pile_summary(pile: piles_q.PileRow) -> dict:
+    """One pile of the schedule as the API gives it: design values, progress, verdict, version."""
+    return {
+        "mark": pile.mark, "cap": pile.cap_mark, "pile_type": pile.pile_type,
+        "easting": pile.easting_m, "northing": pile.northing_m,
+        "cutoff_level": pile.cutoff_level_m, "toe_level": pile.toe_level_m,
+        "diameter_mm": pile.diameter_mm, "ground_model": pile.ground_model_name,
+        "compression_kn": pile.compression_kn, "tension_kn": pile.tension_kn,
+        "shear_kn": pile.shear_kn, "moment_knm": pile.moment_knm, "n_bars": pile.n_bars,
+        "bar_mm": pile.bar_mm, "cage_length": pile.cage_length_m, "fc_mpa": pile.fc_mpa,
+        "fy_mpa": pile.fy_mpa, "exposure_class": pile.exposure_class, "cover_mm": pile.cover_mm,
+        "head": pile.head, "progress": pile.progress, "verdict": pile.verdict,
+        "worst_utilisation": pile.worst_utilisation, "version": pile.current_version,
+    }
+
+
+@bp.get("/session")
+@login_required
+def session_info():
+    """Who is signed in and a CSRF token for writes."""
+    return jsonify({"user": g.user.email, "name": g.user.label, "role": g.user.role,
+                    "csrf_token": generate_csrf()})
+
+
+@bp.get("/projects")
+@login_required
+def list_projects():
+    """The projects the user belongs to (an admin sees all)."""
+    items = projects.for_user(db.get_db(), g.user.id, g.user.role)
+    return jsonify({"projects": [{"id": p.id, "name": p.name, "site": p.site} for p in items]})
+
+
+@bp.get("/projects/<int:project_id>/piles")
+@login_required
+def list_piles(project_id: int):
+    """The schedule of a project with progress, verdict and record version."""
+    project = project_or_404(project_id)
+    piles = piles_q.list_piles(db.get_db(), project.id)
+    return jsonify({"project": {"id": project.id, "name": project.name},
+                    "piles": [pile_summary(p) for p in piles]})
+
+
+@bp.get("/projects/<int:project_id>/piles/<mark>")
+@login_required
+def show_pile(project_id: int, mark: str):
+    """One pile with its newest record, capacity curve and limits (the rig page's data)."""
+    project, pile = _pile_or_404(project_id, mark)
+    return jsonify(services.rig_data(db.get_db(), project.id, pile))
+
+
+@bp.put("/projects/<int:project_id>/piles/<mark>/record")
+@login_required
+def put_record(project_id: int, mark: str):
+    """Save a new version of the pile's as-built record and recheck it (module docstring)."""
+    project, pile = _pile_or_404(project_id, mark)
+    _may_record()
+    body = request.get_json(silent=True)
+    if not isinstance(body, dict):
+        return _error(400, error="the body must be a JSON object with client_id, base_version, record")
+    client_id = body.get("client_id")
+    if not isinstance(client_id, str) or not CLIENT_ID.match(client_id):
+        return _error(422, errors={"client_id": "must be an id made by the client: 8 to 64 letters, "
+                                                "digits, - or _ (a UUID)"})
+    amendment = body.get("amendment")
+    if amendment is not None and not isinstance(amendment, dict):
+        return _error(422, errors={"amendment": "must be an object with a reason"})
+    conn = db.get_db()
+    try:
+        outcome = services.save_record(conn, project.id, pile, g.user, client_id,
+                                       body.get("base_version"), body.get("record"), amendment)
+    except services.RecordInvalid as exc:
+        return _error(422, errors=exc.errors)
+    except services.ClientIdReused as exc:
+        return _error(422, errors={"client_id": str(exc)})
+    except services.RecordConflict as exc:
+        server = exc.current.to_dict() if exc.current else {"version": exc.stored_version}
+        return _error(409, error="conflict", server=server,
+                      message=f"the record was changed on the server (now version {exc.stored_version})")
+    except services.PileLocked as exc:
+        current = records.current(conn, pile.id)
+        return _error(409, error="locked", message=str(exc),
+                      server=current.to_dict() if current else {})
+    return jsonify(outcome.answer())
+
+
+@bp.get("/projects/<int:project_id>/piles/<mark>/record")
+@login_required
+def get_record(project_id: int, mark: str):
+    """The newest version of the record (version 0 and an empty record when none)."""
+    project, pile = _pile_or_404(project_id, mark)
+    current = records.current(db.get_db(), pile.id)
+    if current is None:
+        return jsonify({"version": 0, "record": {}, "verdict": None, "checks": []})
+    return jsonify(current.to_dict())
+
+
+@bp.get("/projects/<int:project_id>/piles/<mark>/history")
+@login_required
+def history(project_id: int, mark: str):
+    """Every saved version of the pile's record, oldest first."""
+    project, pile = _pile_or_404(project_id, mark)
+    versions = records.history(db.get_db(), pile.id)
+    return jsonify({"mark": pile.mark, "versions": [v.to_dict() for v in versions]})
+
+
+def photo_dict(project_id: int, photo: photos_q.Photo) -> dict:
+    """A photo as the API lists it, with the addresses of its files."""
+    from flask import url_for
+    out = photo.to_dict()
+    for size in SIZES:
+        out[f"{size}_url"] = url_for("api.photo_file", project_id=project_id, photo_id=photo.id,
+                                     size=size)
+    return out
+
+
+@bp.post("/projects/<int:project_id>/piles/<mark>/photos")
+@login_required
+def post_photo(project_id: int, mark: str):
+    """Add a photo (multipart: file, client_id, kind, caption) -> 201 {"id", "sha256"}."""
+    project, pile = _pile_or_404(project_id, mark)
+    _may_record()
+    client_id = request.form.get("client_id", "")
+    if not CLIENT_ID.match(client_id):
+        return _error(422, errors={"client_id": "must be an id made by the client: 8 to 64 letters, "
+                                                "digits, - or _ (a UUID)"})
+    upload = request.files.get("file")
+    if upload is None:
+        return _error(422, errors={"file": "a photo file is required"})
+    data = upload.read(photos.MAX_BYTES + 1)
+    if len(data) > photos.MAX_BYTES:
+        return _error(413, error=f"the file is over the limit of {photos.MAX_BYTES // 1_048_576} MB")
+    try:
+        photo, created = photos.add_photo(
+            db.get_db(), project.id, pile, g.user, client_id, request.form.get("kind", ""),
+            request.form.get("caption", ""), data, current_app.config["PHOTO_DIR"])
+    except photos.PhotoRejected as exc:
+        field = "kind" if str(exc).startswith("kind") else "caption" if str(exc).startswith("caption") else "file"
+        return _error(422, errors={field: str(exc)})
+    except ValueError as exc:
+        return _error(422, errors={"client_id": str(exc)})
+    body = {"id": photo.id, "sha256": photo.sha256,
+            "thumb_url": photo_dict(project.id, photo)["thumb_url"]}
+    return jsonify(body), (201 if created else 200)
+
+
+@bp.get("/projects/<int:project_id>/piles/<mark>/photos")
+@login_required
+def list_photos(project_id: int, mark: str):
+    """The photos of a pile with the addresses of their files."""
+    project, pile = _pile_or_404(project_id, mark)
+    return jsonify({"photos": [photo_dict(project.id, p) for p in photos_q.for_pile(db.get_db(), pile.id)]})
+
+
+@bp.get("/projects/<int:project_id>/photos/<int:photo_id>/<size>")
+@login_required
+def photo_file(project_id: int, photo_id: int, size: str):
+    """The image file of a photo: thumb (320 px), display (1600 px) or the original."""
+    project = project_or_404(project_id)
+    photo = photos_q.get(db.get_db(), project.id, photo_id)
+    if photo is None or size not in SIZES:
+        return _error(404, error="not found")
+    photo_dir = current_app.config["PHOTO_DIR"]
+    if size == "original":
+        path = photos.original_path(photo_dir, photo.sha256, photo.format)
+        mimetype = _mimetype(photo.format)
+    else:
+        path = (photos.thumb_path if size == "thumb" else photos.display_path)(photo_dir, photo.sha256)
+        mimetype = "image/jpeg"
+    if not path.exists():
+        return _error(404, error="the image file is missing from the data folder")
+    response = send_file(path, mimetype=mimetype, max_age=86400, conditional=True)
+    response.headers["Cache-Control"] = "private, max-age=86400, immutable"
+    return response
+
+
+def _mimetype(fmt: str) -> str:
+    """The MIME type of a stored original by its Pillow format name."""
+    from PIL import Image
+    return Image.MIME.get(fmt, "application/octet-stream")

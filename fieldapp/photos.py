@@ -1,0 +1,233 @@
+"""Photos of piles: check an upload is a real image, keep the original, make the copies.
+
+``ingest(data, photo_dir)`` does the image work with Pillow:
+
+* refuse more than ``MAX_BYTES`` (25 MB), anything Pillow cannot identify as an image, images
+  over ``MAX_PIXELS`` (50 megapixels; Pillow's decompression-bomb guard is set to the same
+  limit and its ``DecompressionBombError``/``Warning`` become a refusal) and truncated files
+  (the whole image is decoded once; a short file fails there);
+* keep the original bytes, untouched, as ``photos/originals/<sha[:2]>/<sha256>.<ext>`` (the
+  evidence; the client's file name never becomes a path);
+* apply the EXIF orientation, then write a display copy no larger than 1600 px and a
+  thumbnail no larger than 320 px as JPEG (``photos/display/<sha>.jpg``, ``photos/thumb/<sha>.jpg``),
+  decoding JPEGs with ``Image.draft`` at a reduced scale first, which is several times faster
+  than a full decode of a camera-sized image;
+* read the EXIF capture time (DateTimeOriginal, else DateTime) as ISO 8601.
+
+``add_photo(conn, project_id, pile_row, user, client_id, kind, caption, data)`` is the one
+upload path: ingest, then one ``db.write`` transaction with the photo row and a "photo added"
+audit entry. The same ``client_id`` again returns the first photo and stores nothing.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import io
+import os
+import sqlite3
+import tempfile
+import warnings
+from dataclasses import dataclass
+from datetime import datetime
+from pathlib import Path
+
+from PIL import ExifTags, Image, ImageOps, UnidentifiedImageError
+
+from fieldapp.queries import audit
+from fieldapp.queries import photos as photos_q
+
+MAX_BYTES = 25 * 1024 * 1024
+MAX_PIXELS = 50_000_000
+DISPLAY_PX = 1600
+THUMB_PX = 320
+FORMATS = {"JPEG": "jpg", "PNG": "png", "WEBP": "webp", "TIFF": "tif", "GIF": "gif", "BMP": "bmp",
+           "MPO": "jpg"}
+KINDS = photos_q.KINDS
+CAPTION_MAX = 500
+
+# Pillow refuses images over twice this and warns over it; we refuse at the limit itself.
+Image.MAX_IMAGE_PIXELS = MAX_PIXELS
+
+
+class PhotoRejected(ValueError):
+    """The upload is not a photo we keep; the message says why, with the limit."""
+
+
+@dataclass(frozen=True)
+class Ingested:
+    """What ``ingest`` stored: hash, format, sizes in pixels and bytes, EXIF capture time."""
+
+    sha256: str
+    format: str
+    width: int
+    height: int
+    size_bytes: int
+    taken_at: str | None
+    display_size: tuple[int, int]
+    thumb_size: tuple[int, int]
+
+
+def original_path(photo_dir: str | Path, sha256: str, fmt: str) -> Path:
+    """Where the original with this hash is kept."""
+    return Path(photo_dir) / "originals" / sha256[:2] / f"{sha256}.{FORMATS.get(fmt, 'bin')}"
+
+
+def display_path(photo_dir: str | Path, sha256: str) -> Path:
+    """The 1600 px display copy (JPEG)."""
+    return Path(photo_dir) / "display" / f"{sha256}.jpg"
+
+
+def thumb_path(photo_dir: str | Path, sha256: str) -> Path:
+    """The 320 px thumbnail (JPEG)."""
+    return Path(photo_dir) / "thumb" / f"{sha256}.jpg"
+
+
+def _write_atomic(path: Path, data: bytes) -> None:
+    """Write via a temporary file and rename, so a crash never leaves half a file."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".tmp-")
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+_TAG = {name: tag for tag, name in ExifTags.TAGS.items()}
+
+
+def exif_taken_at(image: Image.Image) -> str | None:
+    """The EXIF capture time as ISO 8601 (no zone: cameras write local time), or None."""
+    try:
+        exif = image.getexif()
+    except Exception:  # noqa: BLE001 - a broken EXIF block must not refuse the photo
+        return None
+    values = []
+    try:
+        values.append(exif.get_ifd(ExifTags.IFD.Exif).get(_TAG["DateTimeOriginal"]))
+    except Exception:  # noqa: BLE001
+        pass
+    values.append(exif.get(_TAG["DateTime"]))
+    for value in values:
+        if isinstance(value, bytes):
+            value = value.decode("ascii", "ignore")
+        if isinstance(value, str):
+            try:
+                return datetime.strptime(value.strip().rstrip("\x00"), "%Y:%m:%d %H:%M:%S").isoformat()
+            except ValueError:
+                continue
+    return None
+
+
+def _open(data: bytes) -> Image.Image:
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", Image.DecompressionBombWarning)
+            image = Image.open(io.BytesIO(data))
+    except (Image.DecompressionBombError, Image.DecompressionBombWarning):
+        raise PhotoRejected(f"the image has too many pixels: at most {MAX_PIXELS // 1_000_000} "
+                            "megapixels") from None
+    except (UnidentifiedImageError, OSError, ValueError, SyntaxError):
+        raise PhotoRejected("the file is not an image Toeline can read (JPEG, PNG, WebP, TIFF, GIF, BMP)") from None
+    if image.format not in FORMATS:
+        raise PhotoRejected(f"{image.format} files are not accepted: send JPEG, PNG, WebP, TIFF, GIF or BMP")
+    if image.width * image.height > MAX_PIXELS:
+        raise PhotoRejected(f"the image has {image.width} x {image.height} pixels, over the limit of "
+                            f"{MAX_PIXELS // 1_000_000} megapixels")
+    return image
+
+
+def _copy(data: bytes, size: int) -> tuple[bytes, tuple[int, int]]:
+    """A JPEG at most ``size`` px on its long side, EXIF orientation applied."""
+    image = _open(data)
+    if image.format in ("JPEG", "MPO"):
+        image.draft("RGB", (size, size))  # decode at 1/2, 1/4 or 1/8 scale when that is enough
+    image = ImageOps.exif_transpose(image)
+    if image.mode not in ("RGB", "L"):
+        background = Image.new("RGB", image.size, "white")
+        rgba = image.convert("RGBA")
+        background.paste(rgba, mask=rgba.getchannel("A"))
+        image = background
+    image.thumbnail((size, size), Image.Resampling.LANCZOS)
+    out = io.BytesIO()
+    image.save(out, "JPEG", quality=85, optimize=True)
+    return out.getvalue(), image.size
+
+
+def ingest(data: bytes, photo_dir: str | Path) -> Ingested:
+    """Check an upload and store the original, display copy and thumbnail (module docstring).
+
+    Raises ``PhotoRejected`` with a message naming the limit; nothing is written then.
+    """
+    if len(data) > MAX_BYTES:
+        raise PhotoRejected(f"the file is {len(data) / 1_048_576:.1f} MB, over the limit of "
+                            f"{MAX_BYTES // 1_048_576} MB")
+    if not data:
+        raise PhotoRejected("the file is empty")
+    image = _open(data)
+    fmt = image.format
+    try:
+        image.verify()  # structure check (PNG checksums, etc.)
+        full = _open(data)
+        full.load()  # the full decode: a truncated file fails here
+    except PhotoRejected:
+        raise
+    except (OSError, SyntaxError, ValueError, Image.DecompressionBombError) as exc:
+        raise PhotoRejected(f"the image is damaged or truncated ({exc})") from None
+    taken_at = exif_taken_at(full)
+    oriented = ImageOps.exif_transpose(full)
+    width, height = oriented.size
+    display, display_size = _copy(data, DISPLAY_PX)
+    thumb, thumb_size = _copy(data, THUMB_PX)
+
+    sha = hashlib.sha256(data).hexdigest()
+    original = original_path(photo_dir, sha, fmt)
+    if not original.exists():
+        _write_atomic(original, data)
+    for path, content in ((display_path(photo_dir, sha), display), (thumb_path(photo_dir, sha), thumb)):
+        if not path.exists():
+            _write_atomic(path, content)
+    return Ingested(sha, fmt, width, height, len(data), taken_at, display_size, thumb_size)
+
+
+def add_photo(conn: sqlite3.Connection, project_id: int, pile_row, user, client_id: str, kind: str,
+              caption: str, data: bytes, photo_dir: str | Path) -> tuple[photos_q.Photo, bool]:
+    """Store a photo of a pile: (photo, created). ``created`` False means a repeat of a
+    ``client_id`` already stored (nothing new is written).
+
+    Raises ``PhotoRejected`` for a bad image or kind/caption, ``ValueError`` when the
+    ``client_id`` was used for another pile.
+    """
+    from fieldapp import db
+
+    earlier = photos_q.by_client_id(conn, client_id)
+    if earlier is not None:
+        if earlier.pile_id != pile_row.id:
+            raise ValueError("client_id was already used for a photo of another pile: make a new one")
+        return earlier, False
+    if kind not in KINDS:
+        raise PhotoRejected(f"kind must be one of {', '.join(KINDS)}, got {kind!r}")
+    caption = (caption or "").strip()
+    if len(caption) > CAPTION_MAX:
+        raise PhotoRejected(f"caption must be at most {CAPTION_MAX} characters, got {len(caption)}")
+    stored = ingest(data, photo_dir)
+    with db.write(conn):
+        earlier = photos_q.by_client_id(conn, client_id)
+        if earlier is not None:
+            return earlier, False
+        photo_id = photos_q.insert(
+            conn, project_id=project_id, pile_id=pile_row.id, client_id=client_id, kind=kind,
+            caption=caption, sha256=stored.sha256, format=stored.format, taken_at=stored.taken_at,
+            uploaded_by=user.id, width=stored.width, height=stored.height,
+            size_bytes=stored.size_bytes, display_width=stored.display_size[0],
+            display_height=stored.display_size[1], thumb_width=stored.thumb_size[0],
+            thumb_height=stored.thumb_size[1])
+        audit.append(conn, project_id, user.label, "photo added", pile_row.mark,
+                     {"photo_id": photo_id, "sha256": stored.sha256, "kind": kind,
+                      "client_id": client_id, "taken_at": stored.taken_at})
+    return photos_q.get(conn, project_id, photo_id), True

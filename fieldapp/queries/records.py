@@ -1,0 +1,145 @@
+"""Saved versions of each pile's as-built record (table ``pile_records``).
+
+Every save is a new row; nothing is updated or deleted. ``piles.current_version`` names the
+newest version of a pile and is moved by :func:`set_pile_state` in the same transaction as the
+insert (see ``fieldapp.services.save_record``, the one save path).
+"""
+
+from __future__ import annotations
+
+import json
+import sqlite3
+from dataclasses import dataclass
+from typing import Any
+
+from fieldapp.queries.audit import now_iso
+
+
+@dataclass(frozen=True)
+class RecordVersion:
+    """One saved version: the record as entered, its verdict and checks (dicts as in the API)."""
+
+    id: int
+    project_id: int
+    pile_id: int
+    version: int
+    client_id: str
+    record: dict[str, Any]
+    progress: str
+    verdict: str
+    worst_utilisation: float | None
+    checks: list[dict[str, Any]]
+    borrowed: list[dict[str, Any]]
+    notes: list[str]
+    rules_version: int
+    created_by: int | None
+    created_by_name: str
+    created_at: str
+
+    def answer(self) -> dict[str, Any]:
+        """The API's answer to the save that made this version (the same on every repeat)."""
+        return {"version": self.version, "verdict": self.verdict, "checks": self.checks,
+                "borrowed": self.borrowed, "notes": self.notes,
+                "worst_utilisation": self.worst_utilisation, "progress": self.progress,
+                "rules_version": self.rules_version}
+
+    def to_dict(self) -> dict[str, Any]:
+        """Everything, JSON-ready (history and conflict answers)."""
+        return {"version": self.version, "record": self.record, "progress": self.progress,
+                "verdict": self.verdict, "worst_utilisation": self.worst_utilisation,
+                "checks": self.checks, "borrowed": self.borrowed, "notes": self.notes,
+                "rules_version": self.rules_version, "created_by": self.created_by_name,
+                "created_at": self.created_at, "client_id": self.client_id}
+
+
+_SELECT = ("SELECT r.*, COALESCE(NULLIF(u.name, ''), u.email, '') AS created_by_name "
+           "FROM pile_records r LEFT JOIN users u ON u.id = r.created_by ")
+
+
+def _version(row) -> RecordVersion | None:
+    if row is None:
+        return None
+    return RecordVersion(
+        row["id"], row["project_id"], row["pile_id"], row["version"], row["client_id"],
+        json.loads(row["record_json"]), row["progress"], row["verdict"], row["worst_utilisation"],
+        json.loads(row["checks_json"]), json.loads(row["borrowed_json"]),
+        json.loads(row["notes_json"]), row["rules_version"], row["created_by"],
+        row["created_by_name"], row["created_at"])
+
+
+def by_client_id(conn: sqlite3.Connection, client_id: str) -> RecordVersion | None:
+    """The version a client's save made, or None if that save never arrived."""
+    return _version(conn.execute(_SELECT + "WHERE r.client_id = ?", (client_id,)).fetchone())
+
+
+def current(conn: sqlite3.Connection, pile_id: int) -> RecordVersion | None:
+    """The newest version of a pile's record, or None when nothing was recorded."""
+    return _version(conn.execute(_SELECT + "WHERE r.pile_id = ? ORDER BY r.version DESC LIMIT 1",
+                                 (pile_id,)).fetchone())
+
+
+def get_version(conn: sqlite3.Connection, pile_id: int, version: int) -> RecordVersion | None:
+    """One version of a pile's record, or None."""
+    return _version(conn.execute(_SELECT + "WHERE r.pile_id = ? AND r.version = ?",
+                                 (pile_id, version)).fetchone())
+
+
+def history(conn: sqlite3.Connection, pile_id: int) -> list[RecordVersion]:
+    """Every version of a pile's record, oldest first."""
+    return [_version(r) for r in conn.execute(
+        _SELECT + "WHERE r.pile_id = ? ORDER BY r.version", (pile_id,)).fetchall()]
+
+
+def current_for_project(conn: sqlite3.Connection, project_id: int) -> dict[int, RecordVersion]:
+    """The newest version of every recorded pile of a project, by pile id."""
+    rows = conn.execute(
+        _SELECT + "JOIN piles p ON p.id = r.pile_id AND p.current_version = r.version "
+        "WHERE r.project_id = ?", (project_id,)).fetchall()
+    return {row["pile_id"]: _version(row) for row in rows}
+
+
+def current_positions_in_cap(conn: sqlite3.Connection, cap_id: int) -> dict[str, tuple[float, float]]:
+    """As-built (easting, northing) in m by pile mark, for the piles of a cap whose newest
+    record holds both; piles not yet surveyed are left out."""
+    rows = conn.execute(
+        "SELECT p.mark, r.record_json FROM piles p JOIN pile_records r "
+        "ON r.pile_id = p.id AND r.version = p.current_version WHERE p.cap_id = ?",
+        (cap_id,)).fetchall()
+    out: dict[str, tuple[float, float]] = {}
+    for row in rows:
+        record = json.loads(row["record_json"])
+        if record.get("easting") is not None and record.get("northing") is not None:
+            out[row["mark"]] = (float(record["easting"]), float(record["northing"]))
+    return out
+
+
+def stored_version(conn: sqlite3.Connection, pile_id: int) -> int:
+    """``piles.current_version`` of a pile (0 when nothing was recorded)."""
+    row = conn.execute("SELECT current_version FROM piles WHERE id = ?", (pile_id,)).fetchone()
+    if row is None:
+        raise LookupError(f"pile {pile_id} does not exist")
+    return int(row["current_version"])
+
+
+def insert(conn: sqlite3.Connection, *, project_id: int, pile_id: int, version: int, client_id: str,
+           record: dict[str, Any], progress: str, verdict: str, worst_utilisation: float | None,
+           checks: list[dict[str, Any]], borrowed: list[dict[str, Any]], notes: list[str],
+           rules_version: int, created_by: int | None) -> int:
+    """Store one version; returns the row id. Run inside ``db.write``."""
+    cur = conn.execute(
+        "INSERT INTO pile_records (project_id, pile_id, version, client_id, record_json, progress, "
+        "verdict, worst_utilisation, checks_json, borrowed_json, notes_json, rules_version, "
+        "created_by, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+        (project_id, pile_id, version, client_id, json.dumps(record, sort_keys=True), progress,
+         verdict, worst_utilisation, json.dumps(checks), json.dumps(borrowed), json.dumps(notes),
+         rules_version, created_by, now_iso()))
+    return cur.lastrowid
+
+
+def set_pile_state(conn: sqlite3.Connection, pile_id: int, *, progress: str, verdict: str,
+                   worst_utilisation: float | None, version: int) -> None:
+    """Move the pile's progress, verdict, worst utilisation and current version (in the save's
+    transaction)."""
+    conn.execute(
+        "UPDATE piles SET progress = ?, verdict = ?, worst_utilisation = ?, current_version = ? "
+        "WHERE id = ?", (progress, verdict, worst_utilisation, version, pile_id))
