@@ -404,7 +404,7 @@ def _strata(value: Any, errors: dict[str, str], ground: GroundModel | None) -> l
         if ok:
             out.append(row)
     ordered = sorted(range(len(out)), key=lambda k: out[k]["from_depth"])
-    for a, b in zip(ordered[:-1], ordered[1:]):
+    for a, b in zip(ordered[:-1], ordered[1:], strict=True):
         if out[b]["from_depth"] < out[a]["to_depth"] - 1e-9:
             errors["strata"] = (f"strata overlap: {out[a]['from_depth']:g}-{out[a]['to_depth']:g} m and "
                                 f"{out[b]['from_depth']:g}-{out[b]['to_depth']:g} m")
