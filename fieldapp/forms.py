@@ -41,7 +41,7 @@ def fmt_number(x: float) -> str:
 
 def range_words(lo: float | None, hi: float | None, unit: str = "") -> str:
     """'150 to 3,000 mm', 'within ±10,000 m', 'at least 0' ..."""
-    unit = f" {unit}" if unit else ""
+    unit = f" {unit}" if unit and unit != "°" else unit
 
     def n(x):
         return f"{x:,.0f}" if float(x).is_integer() else f"{x:,g}"
@@ -268,13 +268,15 @@ class GroundModelForm(FlaskForm):
         from fieldapp.queries.ground import layer_from_values
 
         ok = super().validate(extra_validators)
-        rows = self.filled_layers()
+        rows = [(i, e.form) for i, e in enumerate(self.layers, start=1) if not e.form.is_blank()]
         if not rows:
             self.layers.errors.append("Layers: give at least one layer (top level, bottom level, material, "
                                       "unit weight)")
             return False
         built = []
-        for number, row in enumerate(rows, start=1):
+        for number, row in rows:
+            for sub in row:
+                sub.errors = [f"Layer {number}: {e}" for e in sub.errors]
             if any(getattr(row, n).errors for n in LAYER_VALUE_FIELDS):
                 ok = False
                 continue
@@ -311,7 +313,7 @@ class GroundModelForm(FlaskForm):
                 ok = False
                 continue
             try:
-                built.append((row, layer_from_values(row.values())))
+                built.append((number, row, layer_from_values(row.values())))
             except ValueError as exc:
                 message = str(exc)
                 target = _LAYER_ARG_TO_FIELD.get(message.split(" ", 1)[0], "material")
@@ -320,16 +322,16 @@ class GroundModelForm(FlaskForm):
         if not ok:
             return False
         for i in range(1, len(built)):
-            above, below = built[i - 1][1], built[i][1]
+            (n_above, _, above), (n_below, row_below, below) = built[i - 1], built[i]
             if abs(below.top - above.bottom) > 1e-6:
-                built[i][0].top_level_m.errors.append(
-                    f"Layer {i + 1}: top level ({fmt_number(below.top)} m) must equal the bottom of "
-                    f"layer {i} ({fmt_number(above.bottom)} m): layers are contiguous, from the top down")
+                row_below.top_level_m.errors.append(
+                    f"Layer {n_below}: top level ({fmt_number(below.top)} m) must equal the bottom of "
+                    f"layer {n_above} ({fmt_number(above.bottom)} m): layers are contiguous, from the top down")
                 ok = False
         if not ok:
             return False
         try:
-            model = GroundModel(tuple(layer for _, layer in built), self.water_level_m.data)
+            model = GroundModel(tuple(layer for _, _, layer in built), self.water_level_m.data)
             model.stress_profile()
         except ValueError as exc:
             self.water_level_m.errors.append(str(exc))
@@ -389,6 +391,8 @@ class RulesForm(FlaskForm):
             if row.is_blank():
                 continue
             filled += 1
+            for sub in row:
+                sub.errors = [f"Exposure row {number}: {e}" for e in sub.errors]
             code = (row.code.data or "").strip()
             if not code:
                 row.code.errors.append(f"Exposure row {number}: class is required (1 to 12 characters)")
