@@ -308,3 +308,10 @@ def upsert_by_mark(conn: sqlite3.Connection, project_id: int, values: dict) -> t
 def as_values(row: PileRow) -> dict:
     """The design values of a row keyed by WRITE_COLUMNS (for edits and round trips)."""
     return {name: getattr(row, name) for name in WRITE_COLUMNS}
+
+
+def exposure_classes_used(conn: sqlite3.Connection, project_id: int) -> dict[str, int]:
+    """Exposure class -> number of the project's piles designed for it."""
+    return {r[0]: r[1] for r in conn.execute(
+        "SELECT exposure_class, COUNT(*) FROM piles WHERE project_id = ? GROUP BY exposure_class",
+        (project_id,)).fetchall()}
