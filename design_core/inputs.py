@@ -68,6 +68,7 @@ class PileDesign:
     cover_mm: float = 75.0
     head: str = "free"
     cap: str | None = None
+    permanent_casing: bool = False   # True: concrete not cast against soil (cover rule)
 
     def __post_init__(self):
         if not self.mark:
@@ -174,6 +175,7 @@ class AsBuilt:
     concrete_volume_m3: float | None = None
     deliveries: tuple[Delivery, ...] = ()
     strata: tuple[StratumMet, ...] = ()
+    permanent_casing: bool | None = None   # None: as designed
 
     def __post_init__(self):
         limits = {

@@ -261,28 +261,81 @@ def _spring_array(spring, depth: np.ndarray) -> np.ndarray:
     return k
 
 
-def _winkler_matrix(c: np.ndarray, head: str) -> np.ndarray:
-    """FD matrix (times h^4/EI) for y_0..y_n with the ghost nodes eliminated."""
+def _winkler_bands(c: np.ndarray, head: str):
+    """Symmetric pentadiagonal FD system (times h^4/EI) for y_0..y_n, ghosts eliminated.
+
+    Interior rows read y_(i-2) - 4 y_(i-1) + (6 + c_i) y_i - 4 y_(i+1) + y_(i+2) = 0 with
+    c = k h^4 / EI. Free head: y_-1 = 2y0 - y1 + h^2 M/EI, y_-2 = 4y0 - 4y1 + y2 + 2h^2 M/EI -
+    2h^3 H/EI; fixed head: y_-1 = y1, y_-2 = y2 - 2h^3 H/EI; toe: y_(n+1) = 2yn - y_(n-1),
+    y_(n+2) = 4yn - 4y_(n-1) + y_(n-2). The first and last rows are halved, which makes the
+    system symmetric (it is then the stiffness of a beam on springs: positive definite).
+    Returns the diagonal d, first and second off-diagonals e and f.
+    """
     n1 = c.size
-    a = np.zeros((n1, n1))
-    idx = np.arange(n1)
-    a[idx, idx] = 6.0 + c
-    a[idx[:-1], idx[:-1] + 1] = -4.0
-    a[idx[1:], idx[1:] - 1] = -4.0
-    a[idx[:-2], idx[:-2] + 2] = 1.0
-    a[idx[2:], idx[2:] - 2] = 1.0
+    d = 6.0 + c
+    e = np.full(n1 - 1, -4.0)
+    f = np.ones(n1 - 2)
     if head == "free":
-        # y_-1 = 2y0 - y1 + h^2 M/EI ; y_-2 = 4y0 - 4y1 + y2 + 2h^2 M/EI - 2h^3 H/EI
-        a[0, :3] = (2.0 + c[0], -4.0, 2.0)
-        a[1, :4] = (-2.0, 5.0 + c[1], -4.0, 1.0)
+        d[0] = 1.0 + c[0] / 2.0
+        e[0] = -2.0
+        d[1] = 5.0 + c[1]
     else:
-        # y_-1 = y1 ; y_-2 = y2 - 2h^3 H/EI
-        a[0, :3] = (6.0 + c[0], -8.0, 2.0)
-        a[1, :4] = (-4.0, 7.0 + c[1], -4.0, 1.0)
-    # toe: y_n+1 = 2yn - y_n-1 ; y_n+2 = 4yn - 4y_n-1 + y_n-2
-    a[-1, -3:] = (2.0, -4.0, 2.0 + c[-1])
-    a[-2, -4:] = (1.0, -4.0, 5.0 + c[-2], -2.0)
-    return a
+        d[0] = 3.0 + c[0] / 2.0
+        d[1] = 7.0 + c[1]
+    d[-2] = 5.0 + c[-2]
+    e[-1] = -2.0
+    d[-1] = 1.0 + c[-1] / 2.0
+    return d, e, f
+
+
+def solve_pentadiagonal(d, e, f, rhs):
+    """Solve A x = rhs for symmetric positive-definite pentadiagonal A (diagonal d, first and
+    second off-diagonals e, f) by LDL^T factorisation without pivoting (stable for SPD).
+
+    rhs is (n,) or (n, k); pure Python loops over the rows: O(n) work, no BLAS threads.
+    """
+    d = [float(x) for x in d]
+    e = [float(x) for x in e]
+    f = [float(x) for x in f]
+    r = np.asarray(rhs, dtype=float)
+    cols = r.reshape(r.shape[0], -1).T.tolist()
+    n = len(d)
+    if not (len(e) == n - 1 and len(f) == n - 2 and len(cols[0]) == n):
+        raise ValueError("band and right-hand side sizes do not match")
+    dd = [0.0] * n
+    a = [0.0] * n          # L[i+1, i]
+    b = [0.0] * n          # L[i+2, i]
+    for i in range(n):
+        di = d[i]
+        if i >= 1:
+            di -= a[i - 1] * a[i - 1] * dd[i - 1]
+        if i >= 2:
+            di -= b[i - 2] * b[i - 2] * dd[i - 2]
+        if not di > 0.0:
+            raise ValueError("pentadiagonal system is not positive definite")
+        dd[i] = di
+        if i < n - 1:
+            ai = e[i]
+            if i >= 1:
+                ai -= b[i - 1] * a[i - 1] * dd[i - 1]
+            a[i] = ai / di
+        if i < n - 2:
+            b[i] = f[i] / di
+    out = []
+    for z in cols:
+        for i in range(1, n):
+            z[i] -= a[i - 1] * z[i - 1]
+            if i >= 2:
+                z[i] -= b[i - 2] * z[i - 2]
+        for i in range(n):
+            z[i] /= dd[i]
+        for i in range(n - 2, -1, -1):
+            z[i] -= a[i] * z[i + 1]
+            if i <= n - 3:
+                z[i] -= b[i] * z[i + 2]
+        out.append(z)
+    x = np.array(out).T
+    return x.reshape(r.shape)
 
 
 def winkler_unit_responses(ei: float, length: float, spring, head: str = "free",
@@ -308,13 +361,13 @@ def winkler_unit_responses(ei: float, length: float, spring, head: str = "free",
             k = _spring_array(spring, np.linspace(0.0, length, nodes + 1))
     depth = np.linspace(0.0, length, nodes + 1)
     h = length / nodes
-    a = _winkler_matrix(k * h ** 4 / ei, head)
+    d, e, f = _winkler_bands(k * h ** 4 / ei, head)
     rhs = np.zeros((nodes + 1, 2))
-    rhs[0, 0] = 2.0 * h ** 3 / ei                    # unit H
+    rhs[0, 0] = h ** 3 / ei                          # unit H (first row halved)
     if head == "free":
-        rhs[0, 1] = 2.0 * h ** 2 / ei                # unit M
+        rhs[0, 1] = h ** 2 / ei                      # unit M
         rhs[1, 1] = -h ** 2 / ei
-    y = np.linalg.solve(a, rhs)
+    y = solve_pentadiagonal(d, e, f, rhs)
     return depth, y
 
 
@@ -328,7 +381,7 @@ def winkler_pile(ei: float, length: float, spring, shear: float, moment: float =
     head (M is ignored, and the head moment is a result, when head is "fixed"); nodes the number
     of equal intervals (fewer are used for a pile so stiff against its springs that the system
     would lose precision, k h^4 / EI < 1e-10; the result's ``depth`` shows the nodes used).
-    Dense solve of the pentadiagonal system with numpy.linalg.solve (LU with pivoting).
+    The symmetric pentadiagonal system is solved by ``solve_pentadiagonal`` (LDL^T, O(n)).
     """
     if head == "fixed":
         moment = 0.0
@@ -338,10 +391,13 @@ def winkler_pile(ei: float, length: float, spring, shear: float, moment: float =
         raise ValueError("shear and moment must be finite numbers")
     depth, unit = winkler_unit_responses(ei, length, spring, head, nodes)
     y = unit[:, 0] * shear + unit[:, 1] * moment
-    return _result(depth, y, ei, head, shear, moment)
+    return winkler_result(depth, y, ei, head, shear, moment)
 
 
-def _result(depth, y, ei, head, shear, moment) -> WinklerResult:
+def winkler_result(depth: np.ndarray, y: np.ndarray, ei: float, head: str, shear: float,
+                   moment: float) -> WinklerResult:
+    """The WinklerResult for nodal deflections ``y`` (m) at ``depth`` (m, equal steps), with the
+    head loads that produced them (moment E I y'' and rotation y' by central differences)."""
     h = depth[1] - depth[0]
     n = y.size
     ypad = np.empty(n + 2)

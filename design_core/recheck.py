@@ -1,0 +1,908 @@
+"""The recheck of one pile on its as-built record (PRODUCT.md section 5), and of a whole project.
+
+``recheck(design, asbuilt, ground, rules=None, group=None, curve=None) -> PileVerdict`` returns
+the 15 checks of ``design_core.checks.CHECK_CODES`` in that order. What it rests on:
+
+Inputs that were not recorded
+    A check needs its as-built input; when that was not recorded the check is "not checked"
+    (``ok`` None) and its reason names the missing field. It never falls back to the design
+    value to pass a check. Design values stand in only where an engineer would take them as
+    built and another check already asks for the measurement: the design diameter when
+    ``diameter_mm`` is missing (the ``diameter`` check is then not checked), the design cut-off
+    when ``cutoff_level`` is missing (``cutoff_level`` not checked), the design cover in the
+    structural check when ``cover_mm`` is missing (``durability_cover`` not checked), the design
+    concrete strength when ``concrete_mpa`` is missing (``durability_grade`` not checked). Each
+    stand-in is written in the verdict's ``notes``. The as-built toe (``platform_level`` minus
+    ``measured_depth``) has no stand-in: without it axial compression, tension, lateral and the
+    group share are not checked. ``asbuilt=None`` rechecks the design on its own: every check
+    that needs a record is then not checked.
+
+Loads
+    The schedule's loads are working or factored (``rules.loads_are``). Axial checks compare
+    working loads with a working-stress resistance (``design_approach="working_stress"``) or
+    factored loads with a limit-state resistance, converting with ``rules.load_factor``; the
+    structural check always uses factored loads; the lateral check uses working loads (Broms
+    ultimate over ``broms_factor``, deflection under service load). A check with no load (no
+    uplift, no lateral load, not in a cap) is ok with utilisation 0 and says so.
+
+Ground
+    Where strata were logged (with ``platform_level`` and a toe), the ground under the pile is
+    rebuilt from them (``ground_from_strata``): ``details["borrowed"]`` and the notes say which
+    layer each stratum borrowed from.
+
+Checks
+    axial_compression: design resistance at the as-built toe, diameter and cut-off
+    (``capacity_curve``) against the design compression. axial_tension: ``tension_fraction`` of
+    that shaft plus the pile's own weight (as ``tension_capacity``) against the design uplift.
+    structural: factored N and M = max(M_design, N e_min) (+ N x plan deviation for a pile not
+    in a cap, which stands alone under its load), e_min = ``rules.min_eccentricity_m(D)``,
+    against phi M_n(N/phi) of the as-built section (``section_interaction``); a pile with uplift
+    is also checked at N = -T with the design moment. lateral: see ``_lateral`` (the simplified
+    soil). group_share: the cap's loads shared over the as-built positions (``group_shares``);
+    this pile's share against its design compression resistance (or its uplift resistance when
+    the share is a pull); a pile not in a cap carries only its own load, checked under
+    axial_compression, so this check is ok with utilisation 0 and says so. durability_cover,
+    durability_grade and the tolerances: see the functions below; limits from ``rules``.
+
+``details`` carries what the drawings need: "curve" (CapacityCurve), "interaction"
+(InteractionCurve, nominal), "load_point" (N kN, M kNm, factored), "structural_phi", "shares"
+(numpy array, kN) and "group_marks" when in a cap, "borrowed" (list of Borrowed), "broms"
+(BromsResult) and "winkler" (WinklerResult, single-pile recheck only), "ground" (the ground
+used).
+
+``recheck_project(items, rules=None, groups=None) -> dict[mark, PileVerdict]`` rechecks many
+piles, sharing the capacity curve of each (ground, diameter, cut-off, pile type), the section
+curve of each section and the lateral analysis of each (ground, section, length, head).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Iterable
+
+import numpy as np
+
+from design_core.axial import CapacityCurve, capacity_curve, pile_weight
+from design_core.checks import Check, PileVerdict
+from design_core.ground import GroundModel, ground_from_strata
+from design_core.group import group_shares
+from design_core.inputs import AsBuilt, CapGroup, PileDesign
+from design_core.lateral import broms_lateral, winkler_result, winkler_unit_responses
+from design_core.rules import Rules
+from design_core.section import InteractionCurve, section_interaction
+
+CURVE_STEP_M = 0.25        # spacing of the drawn capacity curve
+CURVE_MAX_POINTS = 400
+WINKLER_NODES = 100        # about 0.4 % from Hetenyi on a 30 m pile (tests/validation)
+LEVEL_TOL_M = 1e-6
+
+
+class _NotChecked(Exception):
+    """A check could not be made; the message is the reason."""
+
+
+def _m(x: float) -> str:
+    return f"{x:.2f} m"
+
+
+def _signed(x: float) -> str:
+    return f"{x:+.0f}"
+
+
+def _util(demand: float, capacity: float) -> float:
+    if demand <= 0.0:
+        return 0.0
+    return demand / capacity if capacity > 0.0 else math.inf
+
+
+def _to_working(load: float, rules: Rules) -> float:
+    return load / rules.load_factor if rules.loads_are == "factored" else load
+
+
+def _to_factored(load: float, rules: Rules) -> float:
+    return load * rules.load_factor if rules.loads_are == "working" else load
+
+
+def _axial_demand(load: float, rules: Rules) -> float:
+    """The load on the basis of the axial resistance (working stress or limit state)."""
+    if rules.design_approach == "working_stress":
+        return _to_working(load, rules)
+    return _to_factored(load, rules)
+
+
+def _basis(rules: Rules) -> str:
+    return "working" if rules.design_approach == "working_stress" else "factored"
+
+
+def _ground_key(ground: GroundModel):
+    try:
+        hash(ground)
+        return ground
+    except TypeError:
+        return ("id", id(ground))
+
+
+# --------------------------------------------------------------------------------------------
+# The pile as built
+# --------------------------------------------------------------------------------------------
+
+@dataclass
+class _Pile:
+    """Geometry and ground the checks use, with where each value came from."""
+
+    design: PileDesign
+    asbuilt: AsBuilt
+    rules: Rules
+    ground: GroundModel
+    diameter: float
+    cutoff: float
+    toe: float | None
+    cover_mm: float
+    fc_mpa: float
+    exposure_class: str
+    casing: bool
+    dev_mm: float | None
+    dx_mm: float | None
+    dy_mm: float | None
+    rebuilt: bool
+    borrowed: list = field(default_factory=list)
+    notes: list = field(default_factory=list)
+    ground_error: str | None = None
+
+    @property
+    def in_cap(self) -> bool:
+        return bool(self.design.cap)
+
+
+def _pile(design: PileDesign, asbuilt: AsBuilt, ground: GroundModel, rules: Rules) -> _Pile:
+    notes: list[str] = []
+    d = design.diameter
+    if asbuilt.diameter_mm is not None:
+        d = asbuilt.diameter_mm / 1000.0
+    else:
+        notes.append(f"Diameter not recorded: design diameter {design.diameter * 1000:.0f} mm used")
+    cutoff = design.cutoff_level
+    if asbuilt.cutoff_level is not None:
+        cutoff = asbuilt.cutoff_level
+    else:
+        notes.append(f"Cut-off level not recorded: design cut-off {_m(design.cutoff_level)} used")
+    cover = design.cover_mm if asbuilt.cover_mm is None else asbuilt.cover_mm
+    fc = design.fc_mpa if asbuilt.concrete_mpa is None else asbuilt.concrete_mpa
+    exposure = asbuilt.exposure_class or design.exposure_class
+    casing = design.permanent_casing if asbuilt.permanent_casing is None else asbuilt.permanent_casing
+    dev = dx = dy = None
+    if asbuilt.easting is not None and asbuilt.northing is not None:
+        dx = (asbuilt.easting - design.easting) * 1000.0
+        dy = (asbuilt.northing - design.northing) * 1000.0
+        dev = math.hypot(dx, dy)
+    toe = asbuilt.toe_level
+    pile = _Pile(design, asbuilt, rules, ground, d, cutoff, toe, cover, fc, exposure, casing,
+                 dev, dx, dy, False, [], notes)
+    if asbuilt.strata:
+        if asbuilt.platform_level is None or toe is None:
+            missing = "platform_level" if asbuilt.platform_level is None else "measured_depth"
+            notes.append(f"Strata were logged but {missing} was not recorded: the ground model "
+                         "is used as it stands")
+        else:
+            try:
+                new, borrowed = ground_from_strata(ground, asbuilt.platform_level, asbuilt.strata,
+                                                   max(toe, ground.bottom))
+            except ValueError as exc:
+                pile.ground_error = f"The strata met could not be placed in the ground model: {exc}"
+                notes.append(pile.ground_error)
+            else:
+                pile.ground, pile.borrowed, pile.rebuilt = new, borrowed, True
+                for b in borrowed:
+                    notes.append(f"Stratum {b.from_depth:g}-{b.to_depth:g} m ({b.material}): "
+                                 f"{b.reason}")
+    if (asbuilt.cage_length is not None and design.cage_length
+            and asbuilt.cage_length < design.cage_length - 1e-9):
+        notes.append(f"Cage {asbuilt.cage_length:.2f} m long against {design.cage_length:.2f} m "
+                     "designed: the structural check applies over the cage only")
+    return pile
+
+
+# --------------------------------------------------------------------------------------------
+# Shared analyses (cached in a project recheck)
+# --------------------------------------------------------------------------------------------
+
+class _Cache:
+    """Results shared between piles of one project recheck."""
+
+    def __init__(self):
+        self.curves: dict[Any, tuple[CapacityCurve, dict[float, int]]] = {}
+        self.sections: dict[tuple, InteractionCurve] = {}
+        self.lateral: dict[tuple, Any] = {}
+        self.keep: list = []   # objects whose id() is a key stay alive
+
+
+def _curve_key(pile: _Pile):
+    return (_ground_key(pile.ground), round(pile.diameter, 6), round(pile.cutoff, 6),
+            pile.design.pile_type)
+
+
+def _curve_grid(ground: GroundModel, top: float, toes: Iterable[float]) -> np.ndarray:
+    start = min(top, ground.top) - 0.1
+    pts = [t for t in toes if ground.bottom - LEVEL_TOL_M <= t < min(top, ground.top)]
+    if start > ground.bottom:
+        n = int(min(CURVE_MAX_POINTS, max(2, math.ceil((start - ground.bottom) / CURVE_STEP_M) + 1)))
+        pts.extend(np.linspace(start, ground.bottom, n).tolist())
+    return np.unique(np.maximum(np.array(pts, dtype=float), ground.bottom))[::-1]
+
+
+def _build_curve(pile: _Pile, toes: Iterable[float]) -> tuple[CapacityCurve, dict[float, int]]:
+    grid = _curve_grid(pile.ground, pile.cutoff, toes)
+    if grid.size == 0:
+        raise _NotChecked("The ground model leaves no room for the pile below its cut-off")
+    curve = capacity_curve(pile.ground, pile.diameter, pile.cutoff, grid, pile.design.pile_type,
+                           pile.rules)
+    return curve, {float(z): i for i, z in enumerate(curve.toe_levels)}
+
+
+def _toe_problem(pile: _Pile) -> str | None:
+    """Why the axial checks cannot be made at this toe, or None."""
+    if pile.ground_error:
+        return pile.ground_error
+    if pile.toe is None:
+        missing = [n for n in ("platform_level", "measured_depth")
+                   if getattr(pile.asbuilt, n) is None]
+        return f"As-built toe not recorded ({', '.join(missing)})"
+    g = pile.ground
+    if pile.toe >= min(pile.cutoff, g.top):
+        return (f"As-built toe {_m(pile.toe)} is not below the cut-off {_m(pile.cutoff)} and the "
+                f"ground surface {_m(g.top)}")
+    if pile.toe < g.bottom - LEVEL_TOL_M:
+        return (f"As-built toe {_m(pile.toe)} is below the bottom of the ground model "
+                f"{_m(g.bottom)}: extend the ground model")
+    return None
+
+
+def _curve_usable(curve, pile: _Pile) -> bool:
+    return (isinstance(curve, CapacityCurve) and not pile.rebuilt
+            and abs(curve.diameter - pile.diameter) < 1e-9
+            and abs(curve.top_level - pile.cutoff) < 1e-9
+            and curve.pile_type == pile.design.pile_type)
+
+
+def _read_curve(curve: CapacityCurve, pile: _Pile, index: dict | None):
+    """(design, shaft, base) at the toe from a curve, or None when it cannot be read exactly.
+
+    Exact at a curve point; between two points of the same layer (no jump in the base
+    resistance) linear interpolation; otherwise None.
+    """
+    toe = pile.toe
+    if index is not None and toe in index:
+        i = index[toe]
+        return float(curve.design[i]), float(curve.shaft[i]), float(curve.base[i])
+    z = np.asarray(curve.toe_levels)
+    hit = np.flatnonzero(np.abs(z - toe) <= 1e-9)
+    if hit.size:
+        i = int(hit[0])
+        return float(curve.design[i]), float(curve.shaft[i]), float(curve.base[i])
+    order = np.argsort(z)
+    zs = z[order]
+    k = int(np.searchsorted(zs, toe))
+    if k == 0 or k == zs.size:
+        return None
+    lo, hi = zs[k - 1], zs[k]
+    g = pile.ground
+    if not (g.layer_index_at(lo) == g.layer_index_at(hi) == g.layer_index_at(toe)):
+        return None
+    w = (toe - lo) / (hi - lo)
+    i0, i1 = order[k - 1], order[k]
+
+    def at(arr):
+        return float(arr[i0] + w * (arr[i1] - arr[i0]))
+
+    return at(curve.design), at(curve.shaft), at(curve.base)
+
+
+def _axial(pile: _Pile, curve, cache: _Cache | None):
+    """(curve, design, shaft, base) at the as-built toe; raises _NotChecked."""
+    problem = _toe_problem(pile)
+    if problem:
+        raise _NotChecked(problem)
+    if cache is not None:
+        key = _curve_key(pile)
+        found = cache.curves.get(key)
+        if found is None or pile.toe not in found[1]:
+            toes = [pile.toe] if found is None else list(found[0].toe_levels) + [pile.toe]
+            found = _build_curve(pile, toes)
+            cache.curves[key] = found
+            if isinstance(key[0], tuple):
+                cache.keep.append(pile.ground)
+        got = _read_curve(found[0], pile, found[1])
+        return (found[0],) + got
+    if _curve_usable(curve, pile):
+        got = _read_curve(curve, pile, None)
+        if got is not None:
+            return (curve,) + got
+    built, index = _build_curve(pile, [pile.toe])
+    return (built,) + _read_curve(built, pile, index)
+
+
+def _tension_design(pile: _Pile, shaft: float) -> tuple[float, float]:
+    """Design uplift resistance (kN) and the pile weight, as ``tension_capacity`` does."""
+    rules = pile.rules
+    shaft_t = rules.tension_fraction * shaft
+    weight = pile_weight(pile.ground, pile.diameter, pile.cutoff, pile.toe, rules)
+    if rules.design_approach == "limit_state":
+        return rules.phi_g * shaft_t + rules.pile_weight_factor * weight, weight
+    return shaft_t / rules.fs_tension + rules.pile_weight_factor * weight, weight
+
+
+def _section(pile: _Pile, cache: _Cache | None) -> InteractionCurve:
+    d = pile.design
+    key = (round(pile.diameter, 6), round(pile.cover_mm, 3), d.n_bars, d.bar_mm,
+           round(pile.fc_mpa, 3), d.fy_mpa)
+    if cache is not None and key in cache.sections:
+        return cache.sections[key]
+    curve = section_interaction(pile.diameter, pile.cover_mm, d.n_bars, d.bar_mm, pile.fc_mpa,
+                                d.fy_mpa)
+    if cache is not None:
+        cache.sections[key] = curve
+    return curve
+
+
+# --------------------------------------------------------------------------------------------
+# The checks
+# --------------------------------------------------------------------------------------------
+
+def _check_compression(pile: _Pile, axial) -> Check:
+    code, rules = "axial_compression", pile.rules
+    load = pile.design.compression
+    if load <= 0.0:
+        return Check(code, 0.0, None, "kN", 0.0, True, "No compression load in the design")
+    if isinstance(axial, _NotChecked):
+        return Check.not_checked(code, "kN", str(axial))
+    _, design, shaft, base = axial
+    demand = _axial_demand(load, rules)
+    util = _util(demand, design)
+    ok = util <= 1.0
+    verb = "within" if ok else "exceeds"
+    return Check(code, demand, design, "kN", util, ok,
+                 f"{_basis(rules).capitalize()} load {demand:.0f} kN {verb} the design resistance "
+                 f"{design:.0f} kN at the as-built toe {_m(pile.toe)} (shaft {shaft:.0f} kN, base "
+                 f"{base:.0f} kN ultimate, D {pile.diameter * 1000:.0f} mm)")
+
+
+def _check_tension(pile: _Pile, axial) -> Check:
+    code, rules = "axial_tension", pile.rules
+    load = pile.design.tension
+    if load <= 0.0:
+        return Check(code, 0.0, None, "kN", 0.0, True, "No uplift load in the design")
+    if isinstance(axial, _NotChecked):
+        return Check.not_checked(code, "kN", str(axial))
+    shaft = axial[2]
+    design, weight = _tension_design(pile, shaft)
+    demand = _axial_demand(load, rules)
+    util = _util(demand, design)
+    ok = util <= 1.0
+    verb = "within" if ok else "exceeds"
+    return Check(code, demand, design, "kN", util, ok,
+                 f"{_basis(rules).capitalize()} uplift {demand:.0f} kN {verb} the design uplift "
+                 f"resistance {design:.0f} kN ({rules.tension_fraction:g} x shaft {shaft:.0f} kN "
+                 f"and pile weight {weight:.0f} kN) at the as-built toe {_m(pile.toe)}")
+
+
+def _check_structural(pile: _Pile, share: float | None, cache, details) -> Check:
+    code, rules, d = "structural", pile.rules, pile.design
+    standalone = not pile.in_cap
+    if standalone and pile.dev_mm is None:
+        missing = [n for n in ("easting", "northing") if getattr(pile.asbuilt, n) is None]
+        return Check.not_checked(
+            code, "kNm", f"As-built position not recorded ({', '.join(missing)}): the moment from "
+            "the plan deviation of a pile standing alone under its load is unknown")
+    try:
+        section = _section(pile, cache)
+    except ValueError as exc:
+        return Check.not_checked(code, "kNm", f"Section could not be built: {exc}")
+    compression = d.compression if share is None else max(d.compression, share)
+    n_f = _to_factored(compression, rules)
+    e_min = rules.min_eccentricity_m(pile.diameter)
+    m_design = _to_factored(d.moment, rules)
+    m_f = max(m_design, n_f * e_min)
+    dev_m = (pile.dev_mm or 0.0) / 1000.0 if standalone else 0.0
+    m_f += n_f * dev_m
+    phi = rules.structural_phi
+    cap = phi * section.moment_capacity(n_f / phi)
+    util = _util(m_f, cap) if n_f / phi <= section.squash else math.inf
+    cases = [(util, n_f, m_f, cap)]
+    if d.tension > 0.0:
+        t_f = _to_factored(d.tension, rules)
+        cap_t = phi * section.moment_capacity(-t_f / phi)
+        util_t = _util(m_design, cap_t) if -t_f / phi >= section.tension else math.inf
+        if util_t == 0.0 and cap_t <= 0.0:
+            util_t = math.inf
+        cases.append((util_t, -t_f, m_design, cap_t))
+    util, n_f, m_f, cap = max(cases, key=lambda c: c[0])
+    details["interaction"] = section
+    details["load_point"] = (n_f, m_f)
+    details["structural_phi"] = phi
+    ok = util <= 1.0
+    if n_f >= 0:
+        how = f"max(design, N x e_min {e_min * 1000:.0f} mm)"
+        if dev_m > 0:
+            how += f" + N x plan deviation {dev_m * 1000:.0f} mm"
+    else:
+        how = "design moment with the uplift"
+    verb = "within" if ok else "exceeds"
+    cover = (f"as-built cover {pile.cover_mm:.0f} mm" if pile.asbuilt.cover_mm is not None
+             else f"design cover {pile.cover_mm:.0f} mm, as-built not recorded")
+    return Check(code, m_f, cap, "kNm", util, ok,
+                 f"Factored M {m_f:.0f} kNm ({how}) at N {n_f:.0f} kN {verb} phi Mn {cap:.0f} kNm "
+                 f"(phi {phi:g}, D {pile.diameter * 1000:.0f} mm, {cover})")
+
+
+def _lateral_soil(pile: _Pile):
+    """Soil for the lateral check: the first cohesive or cohesionless layer at or below the
+    top of the pile. Returns (layer, level where resistance starts)."""
+    g = pile.ground
+    top = min(pile.cutoff, g.top)
+    i = g.layer_index_at(top)
+    while i < len(g.layers) and g.layers[i].material == "ignore":
+        i += 1
+    if i >= len(g.layers) or g.layers[i].bottom >= top:
+        raise _NotChecked("No cohesive or cohesionless layer below the top of the pile for the "
+                          "lateral check")
+    layer = g.layers[i]
+    if layer.material == "rock":
+        raise _NotChecked("Rock at the top of the pile: Broms and the soil springs do not apply; "
+                          "the engineer assesses the lateral check")
+    return layer, min(top, layer.top)
+
+
+def _lateral_analysis(pile: _Pile, section: InteractionCurve | None):
+    """Broms result and the head deflections per unit H and M (m/kN, m/kNm), plus the soil text.
+
+    Simplification (documented on the screen through the reason): the soil is the single layer
+    at or below the top of the pile (``_lateral_soil``), taken as extending to the toe. Layers
+    of material "ignore" above it add free length (load eccentricity for Broms, no springs).
+    Clay: c_u at the top of that layer's resisting part (the lower end of a c_u that rises with
+    depth), springs k = spring_per_cu x c_u per metre of pile (Davisson 1970). Sand: gamma
+    buoyant when the water level is above the bottom of the top 5 D of the resisting part,
+    springs k = n_h z (Terzaghi 1955). EI = ei_cracked_factor x E_c I_g with
+    E_c = 4700 sqrt(f'_c) MPa (ACI 318-19 19.2.2.1(b)). Broms uses the nominal pure-bending
+    moment of the as-built section as M_y (compression ignored: conservative).
+    """
+    rules, d = pile.rules, pile.design
+    layer, z_top = _lateral_soil(pile)
+    free = pile.cutoff - z_top                    # m of pile above the resisting soil
+    length = pile.cutoff - pile.toe
+    embedded = z_top - pile.toe
+    if embedded <= 0.0:
+        raise _NotChecked("The as-built toe is above the soil that resists lateral load")
+    my = section.pure_bending if section is not None else None
+    diameter = pile.diameter
+    if layer.material == "cohesive":
+        cu = float(layer.cu_at(z_top))
+        broms = broms_lateral("cohesive", diameter, embedded, d.head, free, cu=cu, yield_moment=my)
+        k0 = rules.spring_per_cu * cu
+
+        def spring(z):
+            return np.where(z >= free - 1e-12, k0, 0.0)
+        soil = f"c_u {cu:.0f} kPa from layer {pile.ground.layers.index(layer)}"
+    else:
+        wet = pile.ground.water_level > z_top - 5.0 * diameter
+        gamma = layer.unit_weight - (rules.gamma_w if wet else 0.0)
+        broms = broms_lateral("cohesionless", diameter, embedded, d.head, free,
+                              unit_weight=gamma, phi=layer.phi, yield_moment=my)
+        nh = rules.spring_nh_sand
+
+        def spring(z):
+            return nh * np.maximum(z - free, 0.0)
+        soil = (f"phi {layer.phi:g} deg, gamma' {gamma:.1f} kN/m3 from layer "
+                f"{pile.ground.layers.index(layer)}")
+    ec = 4700.0 * math.sqrt(pile.fc_mpa) * 1000.0          # kPa
+    ei = rules.ei_cracked_factor * ec * math.pi * diameter ** 4 / 64.0
+    depth, unit = winkler_unit_responses(ei, length, spring, d.head, WINKLER_NODES)
+    return broms, depth, unit, ei, soil
+
+
+def _check_lateral(pile: _Pile, cache, details) -> Check:
+    code, rules, d = "lateral", pile.rules, pile.design
+    shear = _to_working(d.shear, rules)
+    moment = _to_working(d.moment, rules) if d.head == "free" else 0.0
+    if shear <= 0.0 and moment <= 0.0:
+        return Check(code, 0.0, None, "kN", 0.0, True, "No lateral load in the design")
+    problem = _toe_problem(pile)
+    if problem:
+        return Check.not_checked(code, "kN", problem)
+    try:
+        section = _section(pile, cache)
+    except ValueError:
+        section = None
+    key = None
+    if cache is not None:
+        key = (_ground_key(pile.ground), round(pile.diameter, 6), round(pile.cutoff, 6),
+               round(pile.toe, 6), d.head, round(pile.cover_mm, 3), d.n_bars, d.bar_mm,
+               round(pile.fc_mpa, 3), d.fy_mpa)
+        found = cache.lateral.get(key)
+    else:
+        found = None
+    if found is None:
+        try:
+            found = _lateral_analysis(pile, section)
+        except _NotChecked as exc:
+            found = exc
+        except ValueError as exc:
+            found = _NotChecked(f"Lateral analysis could not be made: {exc}")
+        if cache is not None:
+            cache.lateral[key] = found
+            if isinstance(key[0], tuple):
+                cache.keep.append(pile.ground)
+    if isinstance(found, _NotChecked):
+        return Check.not_checked(code, "kN", str(found))
+    broms, depth, unit, ei, soil = found
+    allowed = broms.ultimate / rules.broms_factor
+    util_h = _util(shear, allowed)
+    y = unit[:, 0] * shear + unit[:, 1] * moment
+    defl_mm = abs(float(y[0])) * 1000.0
+    limit_mm = rules.lateral_deflection_limit_mm
+    util_y = defl_mm / limit_mm
+    details["broms"] = broms
+    details["head_deflection_mm"] = defl_mm
+    if cache is None:
+        details["winkler"] = winkler_result(depth, y, ei, d.head, shear, moment)
+    ok = max(util_h, util_y) <= 1.0
+    text = (f"Working shear {shear:.0f} kN against Broms {broms.ultimate:.0f} kN / "
+            f"{rules.broms_factor:g} = {allowed:.0f} kN ({broms.mode} pile) and head deflection "
+            f"{defl_mm:.1f} mm against {limit_mm:g} mm ({soil}, {d.head} head)")
+    if util_h >= util_y:
+        return Check(code, shear, allowed, "kN", util_h, ok, text)
+    return Check(code, defl_mm, limit_mm, "mm", util_y, ok, text)
+
+
+def _check_group(pile: _Pile, group: CapGroup | None, axial, details) -> tuple[Check, float | None]:
+    code, rules, d = "group_share", pile.rules, pile.design
+    if group is None:
+        if d.cap:
+            return Check.not_checked(code, "kN", f"Pile is in cap {d.cap} but the cap's loads "
+                                     "and piles were not given"), None
+        return Check(code, None, None, "kN", 0.0, True,
+                     "Not in a cap: the pile carries its own load, checked under axial "
+                     "compression"), None
+    marks = [p.mark for p in group.piles]
+    if d.mark not in marks:
+        return Check.not_checked(code, "kN", f"Pile {d.mark} is not one of cap {group.mark}'s "
+                                 "piles"), None
+    xy = []
+    for p in group.piles:
+        if p.mark == d.mark and pile.asbuilt.easting is not None and pile.asbuilt.northing is not None:
+            xy.append((pile.asbuilt.easting, pile.asbuilt.northing))
+        else:
+            xy.append(p.xy)
+    load_point = group.load_point
+    if load_point is None:
+        load_point = tuple(np.mean([p.design_xy for p in group.piles], axis=0))
+    try:
+        shares = group_shares(xy, group.n, group.mx, group.my, load_point)
+    except ValueError as exc:
+        return Check.not_checked(code, "kN", f"Cap {group.mark}: {exc}"), None
+    details["shares"] = shares
+    details["group_marks"] = tuple(marks)
+    share = float(shares[marks.index(d.mark)])
+    surveyed = sum(1 for p in group.piles if p.asbuilt_xy is not None)
+    where = f"cap {group.mark}, {len(marks)} piles, {surveyed} surveyed"
+    if isinstance(axial, _NotChecked):
+        return Check.not_checked(code, "kN", f"Share {share:.0f} kN ({where}) not set against a "
+                                 f"resistance: {axial}"), share
+    demand = _axial_demand(abs(share), rules)
+    if share >= 0.0:
+        resistance = axial[1]
+        what = "design compression resistance"
+    else:
+        resistance, _ = _tension_design(pile, axial[2])
+        what = "design uplift resistance"
+    util = _util(demand, resistance)
+    ok = util <= 1.0
+    verb = "within" if ok else "exceeds"
+    pull = "" if share >= 0.0 else " (uplift)"
+    return Check(code, demand, resistance, "kN", util, ok,
+                 f"Share on the as-built positions {demand:.0f} kN{pull} {verb} the {what} "
+                 f"{resistance:.0f} kN ({where})"), share
+
+
+def _check_cover(pile: _Pile) -> Check:
+    code, rules = "durability_cover", pile.rules
+    if pile.asbuilt.cover_mm is None:
+        return Check.not_checked(code, "mm", "As-built cover not recorded (cover_mm)")
+    try:
+        need = rules.min_cover_mm(pile.exposure_class, cast_against_soil=not pile.casing)
+    except ValueError as exc:
+        return Check.not_checked(code, "mm", str(exc))
+    cover = pile.asbuilt.cover_mm
+    ok = cover >= need - 1e-9
+    how = "in a permanent casing" if pile.casing else "cast against soil"
+    verb = "meets" if ok else "is less than"
+    return Check(code, cover, need, "mm", _util(need, cover) if cover > 0 else math.inf, ok,
+                 f"As-built cover {cover:.0f} mm {verb} the minimum {need:.0f} mm for "
+                 f"{pile.exposure_class}, {how}")
+
+
+def _check_grade(pile: _Pile) -> Check:
+    code, rules = "durability_grade", pile.rules
+    if pile.asbuilt.concrete_mpa is None:
+        return Check.not_checked(code, "MPa", "As-built concrete strength not recorded (concrete_mpa)")
+    try:
+        need = rules.exposure(pile.exposure_class).min_strength_mpa
+    except ValueError as exc:
+        return Check.not_checked(code, "MPa", str(exc))
+    fc = pile.asbuilt.concrete_mpa
+    ok = fc >= need - 1e-9
+    verb = "meets" if ok else "is below"
+    return Check(code, fc, need, "MPa", _util(need, fc), ok,
+                 f"Concrete f_ck {fc:g} MPa {verb} the minimum {need:g} MPa for "
+                 f"{pile.exposure_class}")
+
+
+def _check_position(pile: _Pile) -> Check:
+    code, rules = "position", pile.rules
+    if pile.dev_mm is None:
+        missing = [n for n in ("easting", "northing") if getattr(pile.asbuilt, n) is None]
+        return Check.not_checked(code, "mm", f"As-built position not recorded ({', '.join(missing)})")
+    limit = rules.position_tolerance_mm
+    ok = pile.dev_mm <= limit + 1e-9
+    verb = "within" if ok else "more than"
+    return Check(code, pile.dev_mm, limit, "mm", pile.dev_mm / limit, ok,
+                 f"As-built position {pile.dev_mm:.0f} mm from design (east {_signed(pile.dx_mm)}, "
+                 f"north {_signed(pile.dy_mm)} mm), {verb} {limit:g} mm")
+
+
+def _check_inclination(pile: _Pile) -> Check:
+    code, rules = "inclination", pile.rules
+    inc = pile.asbuilt.inclination
+    if inc is None:
+        return Check.not_checked(code, "m/m", "Inclination not recorded (inclination)")
+    limit = rules.inclination_tolerance
+    ok = inc <= limit + 1e-12
+    one_in = f"1 in {1 / inc:.0f}" if inc > 0 else "vertical"
+    verb = "within" if ok else "steeper than"
+    return Check(code, inc, limit, "m/m", inc / limit, ok,
+                 f"Inclination {one_in} ({inc:.4f}) {verb} the limit 1 in {1 / limit:.0f}")
+
+
+def _check_cutoff(pile: _Pile) -> Check:
+    code, rules = "cutoff_level", pile.rules
+    level = pile.asbuilt.cutoff_level
+    if level is None:
+        return Check.not_checked(code, "mm", "As-built cut-off level not recorded (cutoff_level)")
+    design = pile.design.cutoff_level
+    off_mm = (level - design) * 1000.0
+    limit = rules.cutoff_tolerance_mm
+    ok = abs(off_mm) <= limit + 1e-6
+    side = "above" if off_mm > 0 else "below"
+    verb = "within" if ok else "outside"
+    return Check(code, off_mm, limit, "mm", abs(off_mm) / limit, ok,
+                 f"As-built cut-off {_m(level)} is {abs(off_mm):.0f} mm {side} design cut-off "
+                 f"{_m(design)}, {verb} +/-{limit:g} mm")
+
+
+def _check_toe(pile: _Pile) -> Check:
+    code, rules = "toe_level", pile.rules
+    if pile.toe is None:
+        missing = [n for n in ("platform_level", "measured_depth") if getattr(pile.asbuilt, n) is None]
+        return Check.not_checked(code, "m", f"As-built toe not recorded ({', '.join(missing)})")
+    design = pile.design.toe_level
+    above = pile.toe - design
+    limit = rules.toe_tolerance_mm / 1000.0
+    ok = above <= limit + 1e-9
+    # utilisation: length needed below the design cut-off over the length reached
+    need = pile.design.cutoff_level - (design + limit)
+    reached = pile.design.cutoff_level - pile.toe
+    util = need / reached if reached > 0 else math.inf
+    if abs(above) < 0.005:
+        where = f"As-built toe {_m(pile.toe)} at the design toe {_m(design)}"
+    else:
+        side = "above" if above > 0 else "below"
+        where = f"As-built toe {abs(above):.2f} m {side} design toe {_m(design)}"
+    tail = "" if ok else (f", more than the {rules.toe_tolerance_mm:g} mm allowed above" if limit
+                          else ": short of the design toe")
+    return Check(code, above, limit, "m", util, ok, where + tail)
+
+
+def _check_diameter(pile: _Pile) -> Check:
+    code, rules = "diameter", pile.rules
+    got = pile.asbuilt.diameter_mm
+    if got is None:
+        return Check.not_checked(code, "mm", "As-built diameter not recorded (diameter_mm)")
+    design = pile.design.diameter * 1000.0
+    least = design - rules.diameter_tolerance_mm
+    ok = got >= least - 1e-6
+    verb = "not below" if ok else "below"
+    allow = f" less {rules.diameter_tolerance_mm:g} mm" if rules.diameter_tolerance_mm else ""
+    return Check(code, got, least, "mm", _util(least, got), ok,
+                 f"As-built diameter {got:.0f} mm {verb} the design {design:.0f} mm{allow}")
+
+
+def _check_debris(pile: _Pile) -> Check:
+    code, rules = "base_debris", pile.rules
+    debris = pile.asbuilt.debris_mm
+    if debris is None:
+        return Check.not_checked(code, "mm", "Base debris not recorded (debris_mm)")
+    limit = rules.base_debris_mm
+    ok = debris <= limit + 1e-9
+    util = debris / limit if limit > 0 else (0.0 if debris == 0 else math.inf)
+    verb = "within" if ok else "more than"
+    return Check(code, debris, limit, "mm", util, ok,
+                 f"Base debris {debris:g} mm, {verb} the {limit:g} mm allowed")
+
+
+def _check_volume(pile: _Pile) -> Check:
+    code, rules, ab = "concrete_volume", pile.rules, pile.asbuilt
+    missing = []
+    if ab.concrete_volume_m3 is None:
+        missing.append("concrete_volume_m3")
+    if pile.toe is None:
+        missing += [n for n in ("platform_level", "measured_depth") if getattr(ab, n) is None]
+    top = ab.casting_level if ab.casting_level is not None else ab.cutoff_level
+    if top is None:
+        missing.append("casting_level or cutoff_level")
+    if missing:
+        return Check.not_checked(code, "", f"Not recorded: {', '.join(missing)}")
+    which = "casting level" if ab.casting_level is not None else "cut-off (casting level not recorded)"
+    length = top - pile.toe
+    if length <= 0:
+        return Check.not_checked(code, "", f"The {which} {_m(top)} is not above the toe {_m(pile.toe)}")
+    theo = math.pi * pile.design.diameter ** 2 / 4.0 * length
+    ratio = ab.concrete_volume_m3 / theo
+    lo, hi = rules.volume_ratio_min, rules.volume_ratio_max
+    ok = lo - 1e-9 <= ratio <= hi + 1e-9
+    util = max(lo / ratio if ratio > 0 else math.inf, ratio / hi)
+    text = (f"Concrete {ab.concrete_volume_m3:.2f} m3 against {theo:.2f} m3 theoretical "
+            f"(D {pile.design.diameter * 1000:.0f} mm from the toe to the {which}): ratio "
+            f"{ratio:.2f}")
+    if ratio < lo:
+        text += f", below {lo:.2f}: possible necking or soil inclusion"
+    elif ratio > hi:
+        text += f", above {hi:.2f}: overbreak, cavities or concrete loss"
+    else:
+        text += f", within {lo:.2f} to {hi:.2f}"
+    return Check(code, ratio, hi if ratio > hi else lo, "", util, ok, text)
+
+
+def _check_time(pile: _Pile) -> Check:
+    code, rules = "concrete_time", pile.rules
+    deliveries = pile.asbuilt.deliveries
+    if not deliveries:
+        return Check.not_checked(code, "min", "No concrete deliveries recorded (deliveries)")
+    limit = rules.batch_to_discharge_min
+    minutes = [m.minutes_from_batching for m in deliveries]
+    known = [m for m in minutes if m is not None]
+    untimed = len(minutes) - len(known)
+    worst = max(known) if known else None
+    if worst is not None and worst > limit + 1e-9:
+        k = minutes.index(worst)
+        docket = deliveries[k].docket or f"truck {k + 1}"
+        return Check(code, worst, limit, "min", worst / limit, False,
+                     f"{docket} discharged {worst:.0f} min after batching, more than {limit:g} min")
+    if untimed:
+        return Check.not_checked(
+            code, "min", f"{untimed} of {len(minutes)} deliveries lack batching or discharge "
+            "times (batched_at, discharged_at)")
+    return Check(code, worst, limit, "min", worst / limit, True,
+                 f"Longest time from batching to discharge {worst:.0f} min, within {limit:g} min")
+
+
+# --------------------------------------------------------------------------------------------
+# Public
+# --------------------------------------------------------------------------------------------
+
+def _prepare(design, asbuilt, ground, rules, group) -> _Pile:
+    """Validate the inputs' types and work out the as-built geometry and ground."""
+    if not isinstance(design, PileDesign):
+        raise ValueError(f"design must be a PileDesign, got {type(design).__name__}")
+    if not isinstance(ground, GroundModel):
+        raise ValueError(f"ground must be a GroundModel, got {type(ground).__name__}")
+    if not isinstance(rules, Rules):
+        raise ValueError(f"rules must be a Rules, got {type(rules).__name__}")
+    asbuilt = AsBuilt() if asbuilt is None else asbuilt
+    if not isinstance(asbuilt, AsBuilt):
+        raise ValueError(f"asbuilt must be an AsBuilt or None, got {type(asbuilt).__name__}")
+    if group is not None and not isinstance(group, CapGroup):
+        raise ValueError(f"group must be a CapGroup, got {type(group).__name__}")
+    return _pile(design, asbuilt, ground, rules)
+
+
+def _run(pile: _Pile, group: CapGroup | None, curve, cache: _Cache | None) -> PileVerdict:
+    design = pile.design
+    details: dict[str, Any] = {"ground": pile.ground, "borrowed": pile.borrowed}
+    try:
+        axial = _axial(pile, curve, cache)
+        details["curve"] = axial[0]
+    except _NotChecked as exc:
+        axial = exc
+    except ValueError as exc:
+        axial = _NotChecked(f"Axial capacity could not be worked out: {exc}")
+    group_check, share = _check_group(pile, group, axial, details)
+    checks = (
+        _check_compression(pile, axial),
+        _check_tension(pile, axial),
+        _check_structural(pile, share, cache, details),
+        _check_lateral(pile, cache, details),
+        group_check,
+        _check_cover(pile),
+        _check_grade(pile),
+        _check_position(pile),
+        _check_inclination(pile),
+        _check_cutoff(pile),
+        _check_toe(pile),
+        _check_diameter(pile),
+        _check_debris(pile),
+        _check_volume(pile),
+        _check_time(pile),
+    )
+    return PileVerdict(design.mark, checks, tuple(pile.notes), details)
+
+
+def recheck(design: PileDesign, asbuilt: AsBuilt | None, ground: GroundModel,
+            rules: Rules | None = None, group: CapGroup | None = None,
+            curve: CapacityCurve | None = None) -> PileVerdict:
+    """All 15 checks of one pile on its as-built record; see the module docstring.
+
+    design: the pile as designed; asbuilt: the record (None: nothing recorded yet); ground: the
+    ground model; rules: the project's rules (defaults when None); group: the pile's cap with
+    its loads and the piles' positions (None: not in a cap); curve: a capacity curve for this
+    ground, as-built diameter, cut-off and pile type, reused when it matches (read exactly at
+    a curve point, interpolated between two points in the same layer, else recomputed).
+    Returns a PileVerdict with the checks in CHECK_CODES order, notes and details.
+    """
+    rules = Rules() if rules is None else rules
+    return _run(_prepare(design, asbuilt, ground, rules, group), group, curve, None)
+
+
+@dataclass(frozen=True)
+class ProjectItem:
+    """One pile of a project recheck: its design, its record (or None) and its ground model."""
+
+    design: PileDesign
+    asbuilt: AsBuilt | None
+    ground: GroundModel
+
+
+def recheck_project(items: Iterable, rules: Rules | None = None,
+                    groups: dict[str, CapGroup] | None = None) -> dict[str, PileVerdict]:
+    """Recheck every pile of a project; {mark: PileVerdict}, the same as ``recheck`` per pile.
+
+    items: ProjectItem or (design, asbuilt, ground) tuples; groups: {cap mark: CapGroup} for the
+    piles whose ``design.cap`` names a cap. Piles sharing a ground model object (or an equal
+    one), diameter, cut-off and pile type share one capacity curve evaluated at all their toes;
+    equal sections share one interaction curve; equal (ground, section, length, head) share one
+    lateral analysis. Marks must be unique (ValueError naming the mark).
+    """
+    rules = Rules() if rules is None else rules
+    groups = groups or {}
+    piles: list[_Pile] = []
+    seen = set()
+    for item in items:
+        design, asbuilt, ground = (item.design, item.asbuilt, item.ground) if isinstance(
+            item, ProjectItem) else item
+        if getattr(design, "mark", None) in seen:
+            raise ValueError(f"pile mark {design.mark} appears twice in the project")
+        group = groups.get(design.cap) if getattr(design, "cap", None) else None
+        pile = _prepare(design, asbuilt, ground, rules, group)
+        seen.add(design.mark)
+        piles.append(pile)
+    cache = _Cache()
+    # Every toe per (ground, diameter, cut-off, type) first, so each curve is built once.
+    wanted: dict[Any, tuple[_Pile, list[float]]] = {}
+    for pile in piles:
+        if _toe_problem(pile) is None:
+            key = _curve_key(pile)
+            if key in wanted:
+                wanted[key][1].append(pile.toe)
+            else:
+                wanted[key] = (pile, [pile.toe])
+    for key, (pile, toes) in wanted.items():
+        try:
+            cache.curves[key] = _build_curve(pile, toes)
+        except (ValueError, _NotChecked):
+            continue
+        if isinstance(key[0], tuple):
+            cache.keep.append(pile.ground)
+    out: dict[str, PileVerdict] = {}
+    for pile in piles:
+        group = groups.get(pile.design.cap) if pile.design.cap else None
+        out[pile.design.mark] = _run(pile, group, None, cache)
+    return out
