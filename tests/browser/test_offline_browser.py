@@ -1,0 +1,327 @@
+"""Offline in headless Chromium (issue 7): the app opens with no network, records and photos
+wait in the outbox across a browser restart, reach the server exactly once when the network
+returns, a lost answer does not double a version, and a conflict is shown, never overwritten.
+
+Playwright drives Debian's /usr/bin/chromium (never a downloaded browser). A persistent
+profile folder stands for the tablet's browser, so "close the browser and open it again" is a
+real restart of Chromium on the same profile. The server runs in a thread (Werkzeug) on the
+test's own data folder; what reached it is checked through the API with a Flask test client.
+The site is invented test data.
+"""
+
+from __future__ import annotations
+
+import base64
+import io
+import os
+import shutil
+import threading
+import time
+import uuid
+
+import pytest
+from PIL import Image
+from werkzeug.serving import make_server
+
+from fieldapp import db
+from fieldapp.queries import ground, piles
+
+pytestmark = pytest.mark.browser
+
+CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
+ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
+        "--disable-sync", "--no-first-run", "--disable-quic"]
+PASSWORD = "correct horse 42"  # tests/conftest.py PASSWORD
+
+LAYERS = [
+    dict(top_level_m=50.0, bottom_level_m=49.0, material="ignore", unit_weight_kn_m3=18.0),
+    dict(top_level_m=49.0, bottom_level_m=35.0, material="cohesive", unit_weight_kn_m3=19.0,
+         cu_kpa=50.0, cu_bottom_kpa=120.0),
+    dict(top_level_m=35.0, bottom_level_m=20.0, material="cohesionless", unit_weight_kn_m3=20.0,
+         phi_deg=33.0),
+]
+
+
+def _pile(mark, gm, load=800.0):
+    return {"mark": mark, "cap_id": None, "ground_model_id": gm, "pile_type": "bored",
+            "easting_m": 100.0, "northing_m": 10.0 * int(mark[1:]), "cutoff_level_m": 49.0,
+            "toe_level_m": 36.0, "diameter_mm": 600.0, "compression_kn": load, "tension_kn": 0.0,
+            "shear_kn": 0.0, "moment_knm": 0.0, "n_bars": 6, "bar_mm": 16.0, "cage_length_m": 6.0,
+            "fc_mpa": 35.0, "fy_mpa": 500.0, "exposure_class": "XC2", "cover_mm": 75.0, "head": "free"}
+
+
+@pytest.fixture
+def chromium():
+    if not os.path.exists(CHROMIUM):
+        if os.environ.get("CI"):
+            pytest.fail("chromium is required in CI (.ci/run installs it)")
+        pytest.skip("chromium is not installed (apt-get install chromium)")
+    return CHROMIUM
+
+
+@pytest.fixture
+def site(app, people):
+    """Three planned piles on the project 'own'; the server running on a free port."""
+    with app.app_context():
+        conn = db.get_db()
+        with db.write(conn):
+            gm = ground.save_model(conn, people["own"], "clay over sand", 45.0, LAYERS)
+            for mark in ("P1", "P2", "P3"):
+                piles.save_pile(conn, people["own"], _pile(mark, gm))
+    server = make_server("127.0.0.1", 0, app, threaded=True)
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    yield dict(people, pid=people["own"], base=f"http://127.0.0.1:{server.server_port}", app=app)
+    server.shutdown()
+    thread.join(timeout=5)
+
+
+class Tablet:
+    """A Chromium profile folder standing for the tablet's browser; open, close, reopen."""
+
+    def __init__(self, browser_type, chromium, folder, site):
+        self.browser_type, self.chromium, self.folder, self.site = browser_type, chromium, folder, site
+        self.context = None
+
+    def open(self, offline: bool = False):
+        self.context = self.browser_type.launch_persistent_context(
+            str(self.folder), executable_path=self.chromium, args=ARGS, headless=True,
+            viewport={"width": 1280, "height": 800}, offline=offline)
+        self.context.set_default_timeout(20_000)
+        return self.context.pages[0] if self.context.pages else self.context.new_page()
+
+    def close(self):
+        if self.context is not None:
+            self.context.close()
+            self.context = None
+
+    def url(self, path: str) -> str:
+        return self.site["base"] + path
+
+
+@pytest.fixture
+def tablet(browser_type, chromium, tmp_path, site):
+    t = Tablet(browser_type, chromium, tmp_path / "profile", site)
+    yield t
+    t.close()
+
+
+def login(page, site, email):
+    page.goto(site["base"] + "/login")
+    page.fill("#email", email)
+    page.fill("#password", PASSWORD)
+    page.click("button[type=submit]")
+    page.wait_for_load_state()
+    assert "/login" not in page.url
+
+
+def wait_controlled(page):
+    """Wait for the service worker to be activated and to control this page."""
+    page.evaluate("""async () => {
+        const reg = await navigator.serviceWorker.ready;
+        const sw = reg.active;
+        if (sw.state !== 'activated') {
+            await new Promise((r) => sw.addEventListener('statechange', () => { if (sw.state === 'activated') r(); }));
+        }
+        if (!navigator.serviceWorker.controller) {
+            await new Promise((r) => navigator.serviceWorker.addEventListener('controllerchange', r, {once: true}));
+        }
+    }""")
+    assert page.evaluate("navigator.serviceWorker.controller && navigator.serviceWorker.controller.state") == "activated"
+
+
+def until(page, script: str, arg=None, timeout_s: float = 20.0):
+    """Poll ``script`` (a JS function expression) in the page until it returns something truthy.
+
+    (Playwright's wait_for_function evaluates strings, which the app's CSP rightly forbids.)
+    """
+    deadline = time.monotonic() + timeout_s
+    while True:
+        value = page.evaluate(script, arg)
+        if value:
+            return value
+        if time.monotonic() > deadline:
+            raise AssertionError(f"timed out waiting for {script}")
+        page.wait_for_timeout(100)
+
+
+def waiting_is(page, n: int):
+    until(page, "(n) => document.getElementById('outbox-status').dataset.waiting === String(n)", n)
+
+
+def wait_bundle(page, pid):
+    until(page, """async (pid) => {
+        await window.ToelineOutbox.ready;
+        return !!(await window.ToelineOutbox.getBundle(pid));
+    }""", pid)
+
+
+def outbox_counts(page) -> dict:
+    return page.evaluate("window.ToelineOutbox.counts()")
+
+
+def png_bytes() -> bytes:
+    buf = io.BytesIO()
+    Image.new("RGB", (64, 48), (120, 90, 40)).save(buf, "PNG")
+    return buf.getvalue()
+
+
+def save_photo_js(page, pid, mark, data: bytes):
+    return page.evaluate("""async ([pid, mark, b64]) => {
+        const bytes = Uint8Array.from(atob(b64), (c) => c.charCodeAt(0));
+        const file = new File([bytes], 'base.png', {type: 'image/png'});
+        return await window.ToelineOutbox.savePhoto(pid, mark, file, {kind: 'base', caption: 'base clean'});
+    }""", [pid, mark, base64.b64encode(data).decode()])
+
+
+def save_record_js(page, pid, mark, record, base_version):
+    return page.evaluate("""async ([pid, mark, record, base]) =>
+        await window.ToelineOutbox.saveRecord(pid, mark, {base_version: base, record: record})""",
+                         [pid, mark, record, base_version])
+
+
+class Api:
+    """The server as the office sees it (Flask test client signed in as the engineer)."""
+
+    def __init__(self, site):
+        self.site = site
+        self.client = site["app"].test_client()
+        token = self._token()
+        self.client.post("/login", data={"email": site["engineer"], "password": PASSWORD, "csrf_token": token})
+
+    def _token(self) -> str:
+        import re
+        html = self.client.get("/login").get_data(as_text=True)
+        return re.search(r'name="csrf-token" content="([^"]+)"', html).group(1)
+
+    def history(self, mark):
+        r = self.client.get(f"/api/v1/projects/{self.site['pid']}/piles/{mark}/history")
+        assert r.status_code == 200
+        return r.get_json()["versions"]
+
+    def photos(self, mark):
+        r = self.client.get(f"/api/v1/projects/{self.site['pid']}/piles/{mark}/photos")
+        assert r.status_code == 200
+        return r.get_json()["photos"]
+
+    def put(self, mark, record, base_version):
+        token = self.client.get("/api/v1/session").get_json()["csrf_token"]
+        return self.client.put(f"/api/v1/projects/{self.site['pid']}/piles/{mark}/record",
+                               json={"client_id": str(uuid.uuid4()), "base_version": base_version,
+                                     "record": record}, headers={"X-CSRFToken": token})
+
+
+SHORT = {"progress": "boring", "platform_level": 50.0, "measured_depth": 4.0}
+
+
+def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site):
+    pid = site["pid"]
+    api = Api(site)
+    # 1. Online as an inspector: the worker takes control, the project's bundle is kept.
+    page = tablet.open()
+    login(page, site, site["inspector"])
+    page.goto(tablet.url(f"/projects/{pid}/piles"))
+    wait_controlled(page)
+    wait_bundle(page, pid)
+    page.reload()  # now through the worker, so the page is in its cache
+
+    tablet.context.set_offline(True)
+    until(page, "() => document.getElementById('net-status').textContent === 'offline'")
+    response = page.reload()
+    assert response.from_service_worker, "the offline reload must come from the worker's cache"
+    assert page.locator("#net-status").inner_text() == "offline"
+
+    answer = save_record_js(page, pid, "P1", SHORT, 0)
+    assert answer["queued"] is True
+    waiting_is(page, 1)
+    assert "1 waiting" in page.locator("#outbox-status").inner_text()
+    assert page.locator("#outbox-send").is_visible()
+    answer = save_photo_js(page, pid, "P1", png_bytes())
+    assert answer["queued"] is True
+    waiting_is(page, 2)
+
+    # 2. Close the browser and open it again, still offline: both items are still there.
+    tablet.close()
+    page = tablet.open(offline=True)
+    response = page.goto(tablet.url(f"/projects/{pid}/piles"))
+    assert response.from_service_worker
+    waiting_is(page, 2)
+    assert api.history("P1") == [] and api.photos("P1") == []
+
+    # 3. The network returns: the outbox empties, the server holds one version and one photo.
+    tablet.context.set_offline(False)
+    waiting_is(page, 0)
+    versions = api.history("P1")
+    assert len(versions) == 1 and versions[0]["record"]["measured_depth"] == 4.0
+    assert versions[0]["verdict"] == "needs engineer"
+    photos = api.photos("P1")
+    assert len(photos) == 1
+    assert outbox_counts(page) == {"waiting": 0, "conflict": 0, "rejected": 0, "bytes": 0}
+    bundle_pile = page.evaluate(f"window.ToelineOutbox.getBundle({pid}).then((b) => b.piles.P1)")
+    assert bundle_pile["version"] == 1 and bundle_pile["verdict"] == "needs engineer"
+
+
+def test_a_lost_answer_does_not_double_the_version(tablet, site):
+    pid = site["pid"]
+    api = Api(site)
+    page = tablet.open()
+    login(page, site, site["inspector"])
+    page.goto(tablet.url(f"/projects/{pid}/piles"))
+    wait_controlled(page)
+    calls = []
+
+    def lose_first_answer(route):
+        calls.append(route.request.method)
+        if len(calls) == 1:
+            route.fetch()      # the server receives and stores it ...
+            route.abort()      # ... and its answer is lost on the way back
+        else:
+            route.continue_()
+
+    page.route("**/api/v1/projects/*/piles/P2/record", lose_first_answer)
+    answer = save_record_js(page, pid, "P2", SHORT, 0)
+    assert answer["queued"] is True and len(calls) == 1
+    assert len(api.history("P2")) == 1  # it did arrive
+    page.click("#outbox-send")
+    waiting_is(page, 0)
+    assert len(calls) == 2
+    versions = api.history("P2")
+    assert len(versions) == 1 and versions[0]["client_id"] == answer["client_id"]
+
+
+def test_a_conflict_is_shown_side_by_side_and_nothing_is_lost(tablet, site):
+    pid = site["pid"]
+    api = Api(site)
+    first = api.put("P3", {"progress": "boring", "platform_level": 50.0, "measured_depth": 6.0}, 0)
+    assert first.status_code == 200
+    page = tablet.open()
+    login(page, site, site["inspector"])
+    page.goto(tablet.url(f"/projects/{pid}/piles"))
+    wait_controlled(page)
+    wait_bundle(page, pid)
+    tablet.context.set_offline(True)
+    mine = {"progress": "boring", "platform_level": 50.0, "measured_depth": 9.5, "rig": "tablet rig"}
+    assert save_record_js(page, pid, "P3", mine, 1)["queued"] is True
+    office = {"progress": "boring", "platform_level": 50.0, "measured_depth": 7.25, "rig": "office rig"}
+    assert api.put("P3", office, 1).status_code == 200  # changed on the server meanwhile
+
+    tablet.context.set_offline(False)
+    conflict = page.locator(".outbox-item.conflict")
+    conflict.wait_for()
+    table = conflict.locator("table.conflict")
+    assert "On this tablet" in table.inner_text() and "On the server" in table.inner_text()
+    depth_row = table.locator("tr", has_text="measured_depth")
+    assert "9.5" in depth_row.inner_text() and "7.25" in depth_row.inner_text()
+    assert "differs" in (depth_row.get_attribute("class") or "")
+    # Nothing lost: the server kept the office's version, the tablet keeps its own.
+    versions = api.history("P3")
+    assert [v["version"] for v in versions] == [1, 2] and versions[1]["record"]["rig"] == "office rig"
+    assert outbox_counts(page)["conflict"] == 1
+    assert "1 to resolve" in page.locator("#outbox-status").inner_text()
+
+    conflict.locator("[data-action=keep-mine]").click()
+    until(page, "() => document.getElementById('outbox-status').dataset.conflicts === '0'")
+    waiting_is(page, 0)
+    versions = api.history("P3")
+    assert [v["version"] for v in versions] == [1, 2, 3]
+    assert versions[1]["record"]["rig"] == "office rig" and versions[2]["record"]["rig"] == "tablet rig"
