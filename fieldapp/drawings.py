@@ -321,25 +321,29 @@ def capacity_figure(curve: Any, design_load_kn: float | None, required_toe_m: fl
 
 # --- 2. axial force - moment interaction --------------------------------------------------------
 
-def _curve_points(curve: Any) -> tuple[list[float], list[float]]:
+def _curve_points(curve: Any, factor: float = 1.0) -> tuple[list[float], list[float]]:
     n = _finite(getattr(curve, "n", ()))
     m = _finite(getattr(curve, "m", ()))
     if len(n) != len(m):
         return [], []
-    return n, m
+    return [factor * v for v in n], [factor * v for v in m]
 
 
-def interaction_figure(asbuilt: Any, design: Any | None, load_point: Any,
+def interaction_figure(asbuilt: Any, design: Any | None, load_point: Any, phi: float = 1.0,
                        width: float = 360, height: float = 280) -> Figure:
-    """Nominal N-M interaction with as-built cover (solid) and design cover (dashed), and the load
-    point (N kN compression up, M kNm across).
+    """N-M interaction with as-built cover (solid) and design cover (dashed), and the load point
+    (N kN compression up, M kNm across).
 
-    ``asbuilt`` and ``design`` are ``design_core`` InteractionCurves (``n``, ``m`` arrays,
-    ``cover_mm``); ``load_point`` is (N kN, M kNm) or a mapping with ``n``/``m`` keys.
+    ``asbuilt`` and ``design`` are ``design_core`` InteractionCurves (``n``, ``m`` arrays of
+    nominal values, ``cover_mm``); ``load_point`` is (N kN, M kNm) or a mapping with ``n``/``m``
+    keys. ``phi`` is the strength reduction factor the structural check used: both curves are
+    drawn as phi x nominal, the curve the factored load point is checked against (the check
+    compares M with phi M_n(N/phi), which is this curve at N).
     """
     title = "Axial force - moment interaction"
-    n_ab, m_ab = _curve_points(asbuilt) if asbuilt is not None else ([], [])
-    n_de, m_de = _curve_points(design) if design is not None else ([], [])
+    phi = phi if phi and math.isfinite(phi) and phi > 0 else 1.0
+    n_ab, m_ab = _curve_points(asbuilt, phi) if asbuilt is not None else ([], [])
+    n_de, m_de = _curve_points(design, phi) if design is not None else ([], [])
     if len(n_ab) < 2 and len(n_de) < 2:
         return empty_figure(title, "no interaction curve (no reinforcement scheduled?)", width)
     point = _load_point(load_point)
@@ -352,7 +356,8 @@ def interaction_figure(asbuilt: Any, design: Any | None, load_point: Any,
     x = Axis(0.0, mmax, plot[0], plot[2])
     y = Axis(nhi + npad, nlo - npad, plot[1], plot[3])
     fig = Figure(width, height, title)
-    _frame(fig, x, y, nice_ticks(0, mmax), nice_ticks(nlo - npad, nhi + npad), "moment M (kNm)",
+    basis = "nominal" if phi == 1.0 else f"phi {phi:g} x nominal"
+    _frame(fig, x, y, nice_ticks(0, mmax), nice_ticks(nlo - npad, nhi + npad), f"moment M (kNm); curves {basis}",
            "axial force N (kN, compression +)")
     if nlo < 0 < nhi:
         fig.add(Line(plot[0], y(0.0), plot[2], y(0.0), MUTED, 0.8))

@@ -1,0 +1,165 @@
+"""What the Review screen and the certification record show, gathered from the data layer and
+the recheck's result objects. No SQL here (``fieldapp.queries``) and no engineering (the
+numbers and curves come from ``design_core`` through ``fieldapp.services``).
+"""
+
+from __future__ import annotations
+
+import math
+import sqlite3
+from dataclasses import dataclass, field
+from typing import Any
+
+from fieldapp import drawings, services
+from fieldapp.queries import photos as photos_q
+from fieldapp.queries import piles as piles_q
+from fieldapp.queries import records
+from fieldapp.queries import review as review_q
+
+
+@dataclass
+class PileSheet:
+    """One pile as reviewed and certified: status, current record, sign-offs, photos, pictures."""
+
+    status: review_q.PileStatus
+    pile: Any                                   # piles_q.PileRow
+    current: records.RecordVersion | None
+    signoffs: list[review_q.SignOff]
+    amendments: list[review_q.Amendment]
+    photos: list[photos_q.Photo]
+    figures: dict[str, drawings.Figure] = field(default_factory=dict)
+    figure_error: str = ""
+
+    @property
+    def short_checks(self) -> list[dict]:
+        """The checks of the current version that are short or not checked, worst first."""
+        if self.current is None:
+            return []
+        return [c for c in self.current.checks if c.get("ok") is not True]
+
+    @property
+    def signoff(self) -> review_q.SignOff | None:
+        """The sign-off of the current version, or None."""
+        if self.current is None:
+            return None
+        return next((s for s in self.signoffs if s.version == self.current.version), None)
+
+
+def _finite(value: Any) -> float | None:
+    try:
+        f = float(value)
+    except (TypeError, ValueError):
+        return None
+    return f if math.isfinite(f) else None
+
+
+def _shares_by_mark(details: dict[str, Any], group: Any) -> dict[str, float]:
+    """The recheck's new group shares as {mark: kN} (array aligned with ``group_marks``)."""
+    shares = details.get("shares")
+    if shares is None or group is None:
+        return {}
+    if isinstance(shares, dict):
+        return {str(k): v for k, v in ((k, _finite(v)) for k, v in shares.items()) if v is not None}
+    marks = list(details.get("group_marks") or [p.mark for p in group.piles])
+    values = [_finite(v) for v in shares]
+    if len(values) != len(marks):
+        return {}
+    return {m: v for m, v in zip(marks, values, strict=True) if v is not None}
+
+
+def pile_figures(conn: sqlite3.Connection, project_id: int, pile, record: dict[str, Any]) -> dict[str, drawings.Figure]:
+    """The three pictures of one pile from a recheck of its record (``capacity``,
+    ``interaction``, ``plan``). Raises ValueError when the recheck cannot run."""
+    from design_core.axial import required_toe_level
+    from design_core.group import group_shares
+    from design_core.section import section_interaction
+
+    inputs = services.load_inputs(conn, project_id, pile, record)
+    verdict = services.recheck_pile(conn, project_id, pile, record, inputs)
+    details = verdict.details or {}
+    design = inputs.design
+
+    # 1. capacity: the recheck's curve and the load on the basis it compared (the check's value)
+    curve = details.get("curve")
+    if curve is None:
+        curve = services.pile_curve(conn, pile, inputs.rules, record)
+    axial = verdict.check("axial_compression")
+    load = _finite(axial.value) if axial is not None and axial.value else None
+    if load is None and design.compression > 0:
+        load = design.compression
+    required = required_toe_level(curve, load) if curve is not None and load else None
+    asbuilt_toe = None
+    if record.get("platform_level") is not None and record.get("measured_depth") is not None:
+        asbuilt_toe = record["platform_level"] - record["measured_depth"]
+    capacity = drawings.capacity_figure(curve, load, required, asbuilt_toe, design.toe_level)
+
+    # 2. interaction: as-built section from the recheck, the design section for comparison
+    design_curve = None
+    if design.n_bars and design.bar_mm:
+        try:
+            design_curve = section_interaction(design.diameter, design.cover_mm, design.n_bars, design.bar_mm,
+                                               design.fc_mpa, design.fy_mpa)
+        except ValueError:
+            design_curve = None
+    interaction = drawings.interaction_figure(details.get("interaction"), design_curve,
+                                              details.get("load_point"), details.get("structural_phi") or 1.0)
+
+    # 3. plan: the cap with the new shares (and the shares on the design positions)
+    group = inputs.group
+    if group is not None:
+        new = _shares_by_mark(details, group)
+        try:
+            lp = group.load_point
+            if lp is None:
+                xs = [p.design_xy[0] for p in group.piles]
+                ys = [p.design_xy[1] for p in group.piles]
+                lp = (sum(xs) / len(xs), sum(ys) / len(ys))
+            values = group_shares([p.design_xy for p in group.piles], group.n, group.mx, group.my, lp)
+            old = {p.mark: float(v) for p, v in zip(group.piles, values, strict=True)}
+        except ValueError:
+            old = {}
+        own = (record.get("easting"), record.get("northing"))
+        plan_piles = []
+        for p in group.piles:
+            xy = p.asbuilt_xy
+            if p.mark == pile.mark:
+                xy = own if None not in own else None
+            plan_piles.append(drawings.PlanPile(p.mark, p.design_xy, xy, design.diameter, new.get(p.mark),
+                                                old.get(p.mark), highlight=(p.mark == pile.mark)))
+        plan = drawings.cap_plan_figure(group.mark, plan_piles)
+    else:
+        asbuilt_xy = None
+        if record.get("easting") is not None and record.get("northing") is not None:
+            asbuilt_xy = (record["easting"], record["northing"])
+        plan = drawings.cap_plan_figure("", [drawings.PlanPile(
+            pile.mark, (design.easting, design.northing), asbuilt_xy, design.diameter,
+            None, None, highlight=True)])
+    return {"capacity": capacity, "interaction": interaction, "plan": plan}
+
+
+def pile_sheet(conn: sqlite3.Connection, project_id: int, status: review_q.PileStatus,
+               with_figures: bool = True) -> PileSheet:
+    """Everything shown for one pile; pictures only when asked (they need a recheck)."""
+    pile = piles_q.get_pile_by_id(conn, project_id, status.id)
+    current = records.current(conn, status.id)
+    sheet = PileSheet(status, pile, current, review_q.signoffs_for_pile(conn, status.id),
+                      review_q.amendments_for_pile(conn, status.id), photos_q.for_pile(conn, status.id))
+    if with_figures and current is not None:
+        try:
+            sheet.figures = pile_figures(conn, project_id, pile, current.record)
+        except (ValueError, LookupError) as exc:
+            sheet.figure_error = f"the pictures cannot be drawn: {exc}"
+    return sheet
+
+
+def site_plan(statuses: list[review_q.PileStatus], currents: dict[int, records.RecordVersion]) -> drawings.Figure:
+    """Every pile coloured by status, with deviation arrows (positions from the current records)."""
+    plan = []
+    for s in statuses:
+        rec = currents.get(s.id)
+        xy = None
+        if rec is not None and rec.record.get("easting") is not None and rec.record.get("northing") is not None:
+            xy = (rec.record["easting"], rec.record["northing"])
+        plan.append(drawings.PlanPile(s.mark, (s.easting_m, s.northing_m), xy, s.diameter_mm / 1000.0,
+                                      status=s.status))
+    return drawings.site_plan_figure(plan)
