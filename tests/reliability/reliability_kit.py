@@ -1,0 +1,102 @@
+"""Helpers for the reliability tests: the production server as a subprocess on a free port, a
+signed-in ``requests`` session, small generated images. The demo logins are ``demo.LOGINS``
+(invented people, fieldapp/demo.py)."""
+
+from __future__ import annotations
+
+import io
+import os
+import re
+import signal
+import socket
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import requests
+from PIL import Image
+
+from fieldapp import demo
+
+ROOT = Path(__file__).resolve().parents[2]
+LOGINS = {role: (email, password) for email, role, password in demo.LOGINS}
+_META = re.compile(r'<meta name="csrf-token" content="([^"]+)"')
+
+
+def free_port() -> int:
+    with socket.socket() as sock:
+        sock.bind(("127.0.0.1", 0))
+        return sock.getsockname()[1]
+
+
+class Server:
+    """``toeline serve`` (waitress, the production server) in a subprocess on 127.0.0.1."""
+
+    def __init__(self, data: Path, *extra: str, env: dict | None = None, scheme: str = "http"):
+        self.data, self.extra, self.scheme = data, extra, scheme
+        self.env = {**os.environ, **(env or {})}
+        self.port = free_port()
+        self.proc: subprocess.Popen | None = None
+        self.log = data.parent / f"server-{self.port}.log"
+
+    @property
+    def url(self) -> str:
+        return f"{self.scheme}://127.0.0.1:{self.port}"
+
+    def start(self, timeout: float = 30.0) -> None:
+        with open(self.log, "ab") as log:
+            self.proc = subprocess.Popen(
+                [sys.executable, "-m", "fieldapp.cli", "--data", str(self.data), "serve",
+                 "--host", "127.0.0.1", "--port", str(self.port), *self.extra],
+                cwd=ROOT, env=self.env, stdout=log, stderr=subprocess.STDOUT)
+        deadline = time.monotonic() + timeout
+        while time.monotonic() < deadline:
+            if self.proc.poll() is not None:
+                raise RuntimeError(f"server exited: {self.log.read_text()[-2000:]}")
+            try:
+                if requests.get(self.url + "/healthz", timeout=1, verify=False).status_code == 200:
+                    return
+            except requests.RequestException:
+                time.sleep(0.02)
+        raise RuntimeError("server did not answer /healthz in time")
+
+    def kill(self) -> None:
+        """SIGKILL: no clean-up, no flush, like a power cut for the process."""
+        if self.proc and self.proc.poll() is None:
+            self.proc.send_signal(signal.SIGKILL)
+            self.proc.wait()
+
+    def stop(self) -> None:
+        if self.proc and self.proc.poll() is None:
+            self.proc.terminate()
+            try:
+                self.proc.wait(timeout=10)
+            except subprocess.TimeoutExpired:
+                self.kill()
+
+
+def login(session: requests.Session, base: str, email: str, password: str) -> str:
+    """Sign a requests session in through the login form; returns a CSRF token for API writes."""
+    page = session.get(base + "/login", timeout=10)
+    token = _META.search(page.text).group(1)
+    answer = session.post(base + "/login", data={"email": email, "password": password,
+                                                 "csrf_token": token}, timeout=10,
+                          allow_redirects=False)
+    assert answer.status_code == 302, answer.text[:300]
+    return session.get(base + "/api/v1/session", timeout=10).json()["csrf_token"]
+
+
+def small_jpeg(seed: int, size: int = 48) -> bytes:
+    """A small JPEG whose bytes depend on ``seed`` (so each upload has its own SHA-256)."""
+    image = Image.new("RGB", (size, size), ((seed * 37) % 256, (seed * 91) % 256, (seed * 17) % 256))
+    image.putpixel((seed % size, (seed // size) % size), (255 - (seed % 256), 0, 0))
+    out = io.BytesIO()
+    image.save(out, "JPEG", quality=90)
+    return out.getvalue()
+
+
+def small_png(size: int = 32) -> bytes:
+    out = io.BytesIO()
+    Image.new("RGB", (size, size), (10, 120, 200)).save(out, "PNG")
+    return out.getvalue()
