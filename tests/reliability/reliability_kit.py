@@ -71,20 +71,20 @@ class Server:
         if self.proc and self.proc.poll() is None:
             self.proc.terminate()
             try:
-                self.proc.wait(timeout=10)
+                self.proc.wait(timeout=60)
             except subprocess.TimeoutExpired:
                 self.kill()
 
 
 def login(session: requests.Session, base: str, email: str, password: str) -> str:
     """Sign a requests session in through the login form; returns a CSRF token for API writes."""
-    page = session.get(base + "/login", timeout=10)
+    page = session.get(base + "/login", timeout=60)
     token = _META.search(page.text).group(1)
     answer = session.post(base + "/login", data={"email": email, "password": password,
-                                                 "csrf_token": token}, timeout=10,
+                                                 "csrf_token": token}, timeout=60,
                           allow_redirects=False)
     assert answer.status_code == 302, answer.text[:300]
-    return session.get(base + "/api/v1/session", timeout=10).json()["csrf_token"]
+    return session.get(base + "/api/v1/session", timeout=60).json()["csrf_token"]
 
 
 def small_jpeg(seed: int, size: int = 48) -> bytes:
