@@ -11,6 +11,13 @@ import os
 import secrets
 from pathlib import Path
 
+# One BLAS thread per process, set before numpy loads OpenBLAS. The server answers requests on
+# a pool of threads and each recheck solves small systems (the 201 x 201 Winkler matrix):
+# OpenBLAS's own threads then fight the request threads for the cores. Profiled on 2 cores
+# (tests/perf): numpy.linalg.solve of 201 x 201 took 20 ms with OpenBLAS threads, 1.6 ms
+# with one. An operator may still override it in the environment.
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
 from flask import Flask
 from flask_wtf.csrf import CSRFProtect
 
