@@ -14,7 +14,7 @@ from dataclasses import fields as dc_fields
 
 from flask_wtf import FlaskForm
 from flask_wtf.file import FileAllowed, FileField, FileRequired
-from wtforms import Field, FieldList, Form, FormField, SelectField, StringField, TextAreaField
+from wtforms import Field, FieldList, Form, FormField, SelectChoice, SelectField, StringField, TextAreaField
 from wtforms.validators import DataRequired, Length, StopValidation
 from wtforms.widgets import NumberInput
 
@@ -30,6 +30,11 @@ MATERIAL_LABELS = {
     "ignore": "ignored (fill: weight only)",
 }
 PILE_TYPE_LABELS = {"bored": "bored", "cfa": "CFA", "driven": "driven", "screw": "screw"}
+
+
+def options(pairs) -> list[SelectChoice]:
+    """Select options from (value, label) pairs (WTForms 3.3 wants SelectChoice objects)."""
+    return [SelectChoice(str(value), str(label)) for value, label in pairs]
 
 
 def fmt_number(x: float) -> str:
@@ -170,10 +175,10 @@ class PileForm(FlaskForm):
 
 for _spec in FIELDS:
     if _spec.name == "pile_type":
-        _field = SelectField(_spec.label, choices=[(t, PILE_TYPE_LABELS[t]) for t in PILE_TYPES],
+        _field = SelectField(_spec.label, choices=options((t, PILE_TYPE_LABELS[t]) for t in PILE_TYPES),
                              default=_spec.default)
     elif _spec.name == "head":
-        _field = SelectField(_spec.label, choices=[("free", "free"), ("fixed", "fixed (in cap)")],
+        _field = SelectField(_spec.label, choices=options([("free", "free"), ("fixed", "fixed (in cap)")]),
                              default=_spec.default)
     elif _spec.name == "exposure_class":
         _field = SelectField(_spec.label, coerce=str, default=_spec.default)
@@ -225,7 +230,7 @@ class LayerForm(Form):
     top_level_m = MeasureField("Top level", lo=-LEVEL_LIMIT_M, hi=LEVEL_LIMIT_M, unit="m", required=False)
     bottom_level_m = MeasureField("Bottom level", lo=-LEVEL_LIMIT_M, hi=LEVEL_LIMIT_M, unit="m",
                                   required=False)
-    material = SelectField("Material", choices=[("", "—")] + [(m, MATERIAL_LABELS[m]) for m in MATERIALS])
+    material = SelectField("Material", choices=options([("", "—")] + [(m, MATERIAL_LABELS[m]) for m in MATERIALS]))
     unit_weight_kn_m3 = MeasureField("Unit weight", lo=10, hi=30, unit="kN/m³", required=False)
     cu_kpa = MeasureField("c_u at top", lo=0, hi=2000, unit="kPa", required=False)
     cu_bottom_kpa = MeasureField("c_u at bottom", lo=0, hi=2000, unit="kPa", required=False)
@@ -430,7 +435,7 @@ for _f in dc_fields(Rules):
         continue
     _meta = Rules.field_meta(_f.name)
     if _meta.get("choices"):
-        _rule_field = SelectField(_meta["label"], choices=[(c, c) for c in _meta["choices"]])
+        _rule_field = SelectField(_meta["label"], choices=options((c, c) for c in _meta["choices"]))
     else:
         _rule_field = MeasureField(_meta["label"], lo=_meta.get("min"), hi=_meta.get("max"),
                                    unit=_meta.get("unit") or "")

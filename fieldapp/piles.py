@@ -13,7 +13,7 @@ from flask import Blueprint, Response, abort, flash, g, redirect, render_templat
 
 from fieldapp import db
 from fieldapp.auth import engineer_required, login_required, project_or_404
-from fieldapp.forms import CapForm, ImportForm, PileForm
+from fieldapp.forms import CapForm, ImportForm, PileForm, options
 from fieldapp.queries import audit, caps, ground, piles, projects
 from fieldapp.schedule_io import COLUMN_DOC, COLUMNS, export_schedule, import_schedule
 
@@ -92,13 +92,14 @@ def list_piles(project_id):
 
 def _pile_form(conn, project_id: int, formdata=None, obj=None) -> PileForm:
     form = PileForm(formdata=formdata, obj=obj) if formdata is not None else PileForm(obj=obj)
-    form.cap_id.choices = [("", "— none (pile on its own) —")] + [
-        (str(c.id), c.mark) for c in caps.list_caps(conn, project_id)]
-    form.ground_model_id.choices = [("", "— choose —")] + [
-        (str(m.id), m.name) for m in ground.list_models(conn, project_id)]
+    form.cap_id.choices = options([("", "— none (pile on its own) —")] + [
+        (c.id, c.mark) for c in caps.list_caps(conn, project_id)])
+    form.ground_model_id.choices = options([("", "— choose —")] + [
+        (m.id, m.name) for m in ground.list_models(conn, project_id)])
     rules = projects.current_rules(conn, project_id).rules
-    form.exposure_class.choices = [(row.code, f"{row.code} — {row.description}" if row.description else row.code)
-                                   for row in rules.exposure_table]
+    form.exposure_class.choices = options(
+        (row.code, f"{row.code} — {row.description}" if row.description else row.code)
+        for row in rules.exposure_table)
     return form
 
 
