@@ -14,6 +14,23 @@ PASSWORD = "correct horse 42"
 ROLES = ("admin", "engineer", "inspector", "viewer")
 
 
+_PRODUCTION_HASHER = users._hasher
+
+
+@pytest.fixture(autouse=True, scope="session")
+def _fast_password_hashing():
+    """Argon2id with minimal cost for the test run only (hashes dozens of test users a second).
+
+    Production keeps argon2-cffi's defaults; test_foundation checks them. Stored hashes carry
+    their own parameters, so verification is the same code either way.
+    """
+    from argon2 import PasswordHasher
+
+    users._hasher = PasswordHasher(time_cost=1, memory_cost=1024, parallelism=1)
+    yield
+    users._hasher = _PRODUCTION_HASHER
+
+
 @pytest.fixture
 def app(tmp_path):
     """The app on an empty data folder, CSRF on as in production."""

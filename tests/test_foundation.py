@@ -119,3 +119,14 @@ def test_security_headers_on_every_response(client):
     assert "frame-ancestors 'none'" in csp
     assert response.headers["X-Content-Type-Options"] == "nosniff"
     assert "/" not in response.headers.get("Server", "")  # no version leaked
+
+
+def test_production_passwords_use_argon2id_with_owasp_minimum_cost():
+    # OWASP Password Storage Cheat Sheet: argon2id, at least 19 MiB memory and 2 iterations.
+    from fieldapp.queries.users import default_hasher
+
+    PRODUCTION_HASHER = default_hasher()
+    assert PRODUCTION_HASHER.type.name == "ID"
+    assert PRODUCTION_HASHER.memory_cost >= 19 * 1024 and PRODUCTION_HASHER.time_cost >= 2
+    stored = PRODUCTION_HASHER.hash("a password")
+    assert stored.startswith("$argon2id$")

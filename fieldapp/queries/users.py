@@ -13,7 +13,14 @@ from fieldapp.queries.audit import now_iso
 
 ROLES = ("admin", "engineer", "inspector", "viewer")
 
-_hasher = PasswordHasher()
+
+
+def default_hasher() -> PasswordHasher:
+    """Argon2id with argon2-cffi's defaults (RFC 9106 low-memory profile: 64 MiB, 3 passes)."""
+    return PasswordHasher()
+
+
+_hasher = default_hasher()
 
 
 @dataclass(frozen=True)
