@@ -12,6 +12,13 @@ from design_core.axial import (
     beta_factor, capacity_curve, earth_pressure_k, n_q, pile_area, pile_weight, required_toe_level,
     tension_capacity, unit_shaft_friction,
 )
+from design_core.section import InteractionCurve, beta_1, section_forces, section_interaction
+from design_core.lateral import (
+    BromsResult, WinklerResult, broms_lateral, solve_pentadiagonal, winkler_pile, winkler_result,
+    winkler_unit_responses,
+)
+from design_core.group import across_moment, group_shares
+from design_core.recheck import ProjectItem, recheck, recheck_project
 
 __all__ = [
     "CHECK_CODES", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict",
@@ -20,4 +27,9 @@ __all__ = [
     "AxialResult", "CapacityCurve", "ShaftRow", "TensionResult", "alpha_api", "alpha_factor",
     "axial_capacity", "beta_factor", "capacity_curve", "earth_pressure_k", "n_q", "pile_area",
     "pile_weight", "required_toe_level", "tension_capacity", "unit_shaft_friction",
+    "InteractionCurve", "beta_1", "section_forces", "section_interaction",
+    "BromsResult", "WinklerResult", "broms_lateral", "solve_pentadiagonal", "winkler_pile",
+    "winkler_result", "winkler_unit_responses",
+    "across_moment", "group_shares",
+    "ProjectItem", "recheck", "recheck_project",
 ]

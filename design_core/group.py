@@ -22,15 +22,19 @@ import numpy as np
 
 
 def group_shares(xy, n: float, mx: float = 0.0, my: float = 0.0,
-                 load_point: tuple[float, float] = (0.0, 0.0)) -> np.ndarray:
+                 load_point: tuple[float, float] = (0.0, 0.0), across: str = "raise") -> np.ndarray:
     """Axial load of each pile (kN, compression +) under a rigid cap.
 
     xy: k x 2 pile positions (m, easting and northing or any plan axes); n: vertical load (kN)
     acting at ``load_point`` (m, same axes); mx, my: moments (kNm) about the load point, mx
     adding compression towards +y and my towards +x. One pile takes everything and can carry no
-    moment; two piles carry moment only about the axis across their line (the component along
-    it raises ValueError if not zero within 1e-9 kNm, since the cap would rotate freely).
+    moment; piles in one line carry only the moment that tilts the cap along the line. The
+    moment tilting it across the line (including N off the line) cannot be carried by the
+    piles: ``across="raise"`` raises ValueError unless it is zero within 1e-9 kNm;
+    ``across="ignore"`` leaves it to the cap's tie beams (``across_moment`` tells how much).
     """
+    if across not in ("raise", "ignore"):
+        raise ValueError(f"across must be raise or ignore, got {across!r}")
     pts = np.asarray(xy, dtype=float)
     if pts.ndim != 2 or pts.shape[1] != 2 or pts.shape[0] == 0:
         raise ValueError(f"xy must be a list of (x, y) pile positions, got shape {pts.shape}")
@@ -51,7 +55,7 @@ def group_shares(xy, n: float, mx: float = 0.0, my: float = 0.0,
     ixy = float(dx @ dy)
     det = ixx * iyy - ixy * ixy
     if k == 1 or ixx + iyy < 1e-12:
-        if abs(mx_c) > 1e-9 or abs(my_c) > 1e-9:
+        if (abs(mx_c) > 1e-9 or abs(my_c) > 1e-9) and across == "raise":
             raise ValueError("a single pile (or piles at one point) cannot carry a moment from "
                              "the cap")
         return np.full(k, float(n) / k)
@@ -60,12 +64,32 @@ def group_shares(xy, n: float, mx: float = 0.0, my: float = 0.0,
         far = int(np.argmax(np.hypot(dx, dy)))
         line = np.array([dx[far], dy[far]]) / math.hypot(dx[far], dy[far])
         along = my_c * line[0] + mx_c * line[1]        # compresses the +line end
-        across = -my_c * line[1] + mx_c * line[0]
-        if abs(across) > 1e-9:
-            raise ValueError("piles in one line cannot carry a moment that tilts the cap across "
-                             "the line")
+        tilt = -my_c * line[1] + mx_c * line[0]
+        if abs(tilt) > 1e-9 and across == "raise":
+            raise ValueError(f"piles in one line cannot carry a moment that tilts the cap across "
+                             f"the line ({tilt:.1f} kNm)")
         s = dx * line[0] + dy * line[1]
         return float(n) / k + along * s / float(s @ s)
     b = (my_c * iyy - mx_c * ixy) / det
     c = (mx_c * ixx - my_c * ixy) / det
     return float(n) / k + b * dx + c * dy
+
+
+def across_moment(xy, n: float, mx: float = 0.0, my: float = 0.0,
+                  load_point: tuple[float, float] = (0.0, 0.0)) -> float:
+    """Moment (kNm) the piles cannot carry: 0 for a group that is not in one line; for piles in
+    one line, the moment tilting the cap across the line (about the piles' centroid); for a
+    single pile (or piles at one point), the whole moment."""
+    pts = np.asarray(xy, dtype=float)
+    centre = pts.mean(axis=0)
+    dx, dy = pts[:, 0] - centre[0], pts[:, 1] - centre[1]
+    mx_c = float(mx) + float(n) * (float(load_point[1]) - centre[1])
+    my_c = float(my) + float(n) * (float(load_point[0]) - centre[0])
+    ixx, iyy, ixy = float(dx @ dx), float(dy @ dy), float(dx @ dy)
+    if pts.shape[0] == 1 or ixx + iyy < 1e-12:
+        return math.hypot(mx_c, my_c)
+    if ixx * iyy - ixy * ixy > 1e-12 * (ixx + iyy) ** 2:
+        return 0.0
+    far = int(np.argmax(np.hypot(dx, dy)))
+    line = np.array([dx[far], dy[far]]) / math.hypot(dx[far], dy[far])
+    return abs(-my_c * line[1] + mx_c * line[0])

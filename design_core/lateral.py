@@ -27,7 +27,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 
@@ -47,22 +46,21 @@ def _positive(name: str, value, allow_zero: bool = False) -> float:
     return value
 
 
-def _solve_increasing(fn: Callable[[float], float], target: float, lo: float, hi: float,
-                      iterations: int = 100) -> float:
-    """x in [lo, hi] with fn(x) = target for fn increasing (bisection; hi grown if needed)."""
-    grow = 0
-    while fn(hi) < target and grow < 200:
-        lo, hi = hi, hi * 2.0
-        grow += 1
-    for _ in range(iterations):
-        mid = 0.5 * (lo + hi)
-        if fn(mid) < target:
-            lo = mid
-        else:
-            hi = mid
-        if hi - lo <= 1e-12 * max(1.0, hi):
+def _cubic_root(a: float, b: float, c: float) -> float:
+    """The positive root s of a s^3 + b s^2 = c (a > 0, b >= 0, c >= 0), by Newton's method.
+
+    The left side is increasing and convex for s > 0, so Newton from s0 = (c/a)^(1/3) >= root
+    falls monotonically onto the root.
+    """
+    if c <= 0.0:
+        return 0.0
+    s = (c / a) ** (1.0 / 3.0)
+    for _ in range(60):
+        step = (a * s ** 3 + b * s * s - c) / (3.0 * a * s * s + 2.0 * b * s)
+        s -= step
+        if abs(step) <= 1e-13 * s:
             break
-    return 0.5 * (lo + hi)
+    return s
 
 
 @dataclass(frozen=True)
@@ -126,10 +124,9 @@ def _broms_cohesive(cu, d, length, head, e, my):
         return h_short, "short", 0, h_short, h_long, m_head
     # intermediate: hinge at the head; zero shear at 1.5D + f, f = H/k, g = L' - f:
     # H (1.5D + f/2) - M_y = 2.25 c_u D g^2  (moment at zero shear = moment of the lower part)
-    def excess(f):
-        return k * f * (e + 1.5 * d + 0.5 * f) - 0.25 * k * (lp - f) ** 2
-    f_i = _solve_increasing(excess, my, 0.0, max(lp, 1e-9))
-    f_i = min(f_i, lp)
+    # k f (1.5D + f/2) - (k/4)(L' - f)^2 = M_y  ->  (k/4) f^2 + k (1.5D + L'/2) f - (k L'^2/4 + M_y) = 0
+    qa, qb, qc = 0.25 * k, k * (1.5 * d + 0.5 * lp), -(0.25 * k * lp * lp + my)
+    f_i = min((-qb + math.sqrt(qb * qb - 4.0 * qa * qc)) / (2.0 * qa), lp)
     h_int = k * f_i
     m_depth = 0.25 * k * (lp - f_i) ** 2
     if m_depth <= my:
@@ -144,12 +141,16 @@ def _broms_cohesionless(gamma, phi, d, length, head, e, my):
     def f_of(h):                          # depth of zero shear: 1.5 g f^2 = H
         return math.sqrt(h / (1.5 * g))
 
+    def h_yield(moment, lever):
+        # H (lever + (2/3) f(H)) = moment; with s = sqrt(H): a s^3 + lever s^2 = moment
+        return _cubic_root(2.0 / 3.0 / math.sqrt(1.5 * g), lever, moment) ** 2
+
     if head == "free":
         h_short = 0.5 * g * length ** 3 / (e + length)
         m_short = h_short * (e + 2.0 / 3.0 * f_of(h_short))
         if my is None:
             return h_short, "short", 0, h_short, math.inf, m_short
-        h_long = _solve_increasing(lambda h: h * (e + 2.0 / 3.0 * f_of(h)), my, 0.0, 1.0)
+        h_long = h_yield(my, e)
         if h_short <= h_long:
             return h_short, "short", 0, h_short, h_long, m_short
         return h_long, "long", 1, h_short, h_long, my
@@ -159,7 +160,7 @@ def _broms_cohesionless(gamma, phi, d, length, head, e, my):
     if my is None:
         return h_short, "short", 0, h_short, math.inf, m_head
     # long: hinges at the head and at the depth of zero shear: 2 M_y = H (2/3) f
-    h_long = _solve_increasing(lambda h: h * 2.0 / 3.0 * f_of(h), 2.0 * my, 0.0, 1.0)
+    h_long = h_yield(2.0 * my, 0.0)
     if m_head <= my:
         return h_short, "short", 0, h_short, h_long, m_head
     # intermediate: rotation about the toe with a hinge at the head: H L = 0.5 g L^3 + M_y

@@ -37,12 +37,21 @@ Checks
     structural: factored N and M = max(M_design, N e_min) (+ N x plan deviation for a pile not
     in a cap, which stands alone under its load), e_min = ``rules.min_eccentricity_m(D)``,
     against phi M_n(N/phi) of the as-built section (``section_interaction``); a pile with uplift
-    is also checked at N = -T with the design moment. lateral: see ``_lateral`` (the simplified
-    soil). group_share: the cap's loads shared over the as-built positions (``group_shares``);
-    this pile's share against its design compression resistance (or its uplift resistance when
-    the share is a pull); a pile not in a cap carries only its own load, checked under
-    axial_compression, so this check is ok with utilisation 0 and says so. durability_cover,
-    durability_grade and the tolerances: see the functions below; limits from ``rules``.
+    is also checked at N = -T with the design moment. A pile stands alone unless its cap
+    (``group``) has two or more piles. lateral: Broms ultimate / ``broms_factor`` against the
+    working shear and the Winkler head deflection under the working shear (and moment, free
+    head) against ``lateral_deflection_limit_mm``; utilisation the larger. Simplified soil: one
+    layer, the first cohesive or cohesionless layer at or below the top of the pile, down to
+    the toe; lengths rounded 50 mm on the safe side (``_lateral_geometry``,
+    ``_lateral_analysis``). group_share: the cap's loads shared over the as-built positions
+    (``group_shares``; a moment across a line of piles is left to the tie beams and named in
+    the reason); this pile's share against its design compression resistance (or its uplift
+    resistance when the share is a pull). A pile not in a cap carries only its own load,
+    checked under axial_compression, so this check is ok with utilisation 0 and says so; a
+    pile whose design names a cap that was not passed is not checked. durability_cover
+    (against ``rules.min_cover_mm``, cast against soil unless ``permanent_casing``),
+    durability_grade and the tolerances: see the ``_check_*`` functions; limits from
+    ``rules``.
 
 ``details`` carries what the drawings need: "curve" (CapacityCurve), "interaction"
 (InteractionCurve, nominal), "load_point" (N kN, M kNm, factored), "structural_phi", "shares"
@@ -52,7 +61,8 @@ used).
 
 ``recheck_project(items, rules=None, groups=None) -> dict[mark, PileVerdict]`` rechecks many
 piles, sharing the capacity curve of each (ground, diameter, cut-off, pile type), the section
-curve of each section and the lateral analysis of each (ground, section, length, head).
+curve of each section, the Winkler analysis of each (ground, diameter, rounded lengths,
+head, concrete) and the shares of each cap. Its verdicts equal ``recheck``'s, pile by pile.
 """
 
 from __future__ import annotations
@@ -66,7 +76,7 @@ import numpy as np
 from design_core.axial import CapacityCurve, capacity_curve, pile_weight
 from design_core.checks import Check, PileVerdict
 from design_core.ground import GroundModel, ground_from_strata
-from design_core.group import group_shares
+from design_core.group import across_moment, group_shares
 from design_core.inputs import AsBuilt, CapGroup, PileDesign
 from design_core.lateral import broms_lateral, winkler_result, winkler_unit_responses
 from design_core.rules import Rules
@@ -149,10 +159,14 @@ class _Pile:
     borrowed: list = field(default_factory=list)
     notes: list = field(default_factory=list)
     ground_error: str | None = None
+    _gkey: Any = None
 
     @property
-    def in_cap(self) -> bool:
-        return bool(self.design.cap)
+    def gkey(self):
+        """A dictionary key for the ground used (the model itself when hashable)."""
+        if self._gkey is None:
+            self._gkey = _ground_key(self.ground)
+        return self._gkey
 
 
 def _pile(design: PileDesign, asbuilt: AsBuilt, ground: GroundModel, rules: Rules) -> _Pile:
@@ -214,11 +228,12 @@ class _Cache:
         self.curves: dict[Any, tuple[CapacityCurve, dict[float, int]]] = {}
         self.sections: dict[tuple, InteractionCurve] = {}
         self.lateral: dict[tuple, Any] = {}
+        self.groups: dict[tuple, Any] = {}
         self.keep: list = []   # objects whose id() is a key stay alive
 
 
 def _curve_key(pile: _Pile):
-    return (_ground_key(pile.ground), round(pile.diameter, 6), round(pile.cutoff, 6),
+    return (pile.gkey, round(pile.diameter, 6), round(pile.cutoff, 6),
             pile.design.pile_type)
 
 
@@ -386,9 +401,11 @@ def _check_tension(pile: _Pile, axial) -> Check:
                  f"and pile weight {weight:.0f} kN) at the as-built toe {_m(pile.toe)}")
 
 
-def _check_structural(pile: _Pile, share: float | None, cache, details) -> Check:
+def _check_structural(pile: _Pile, share: float | None, group: CapGroup | None, cache,
+                      details) -> Check:
     code, rules, d = "structural", pile.rules, pile.design
-    standalone = not pile.in_cap
+    # A cap of two or more piles takes the column's eccentricity; anything else stands alone.
+    standalone = group is None or len(group.piles) < 2
     if standalone and pile.dev_mm is None:
         missing = [n for n in ("easting", "northing") if getattr(pile.asbuilt, n) is None]
         return Check.not_checked(
@@ -435,13 +452,26 @@ def _check_structural(pile: _Pile, share: float | None, cache, details) -> Check
                  f"(phi {phi:g}, D {pile.diameter * 1000:.0f} mm, {cover})")
 
 
-def _lateral_soil(pile: _Pile):
-    """Soil for the lateral check: the first cohesive or cohesionless layer at or below the
-    top of the pile. Returns (layer, level where resistance starts)."""
+LATERAL_STEP_M = 0.05      # lateral geometry rounded to this, on the safe side
+
+
+def _lateral_geometry(pile: _Pile):
+    """Soil layer and lengths of the lateral check, rounded on the safe side.
+
+    The soil is the first cohesive or cohesionless layer at or below the top of the pile
+    (layers of material "ignore" above it are free length). Its top of resistance z_top is
+    rounded up, the free length (cut-off down to z_top) up and the embedded length (z_top down
+    to the toe) down, each to ``LATERAL_STEP_M``: a longer lever and a shorter embedment give
+    less resistance, and piles within 50 mm of each other share one analysis. Returns
+    (layer index, z_top, free, embedded); raises _NotChecked.
+    """
     g = pile.ground
     top = min(pile.cutoff, g.top)
-    i = g.layer_index_at(top)
-    while i < len(g.layers) and g.layers[i].material == "ignore":
+    layers = g.layers
+    i = 0
+    while i < len(layers) - 1 and layers[i].bottom >= top:   # the layer holding top
+        i += 1
+    while i < len(layers) and layers[i].material == "ignore":
         i += 1
     if i >= len(g.layers) or g.layers[i].bottom >= top:
         raise _NotChecked("No cohesive or cohesionless layer below the top of the pile for the "
@@ -450,53 +480,83 @@ def _lateral_soil(pile: _Pile):
     if layer.material == "rock":
         raise _NotChecked("Rock at the top of the pile: Broms and the soil springs do not apply; "
                           "the engineer assesses the lateral check")
-    return layer, min(top, layer.top)
-
-
-def _lateral_analysis(pile: _Pile, section: InteractionCurve | None):
-    """Broms result and the head deflections per unit H and M (m/kN, m/kNm), plus the soil text.
-
-    Simplification (documented on the screen through the reason): the soil is the single layer
-    at or below the top of the pile (``_lateral_soil``), taken as extending to the toe. Layers
-    of material "ignore" above it add free length (load eccentricity for Broms, no springs).
-    Clay: c_u at the top of that layer's resisting part (the lower end of a c_u that rises with
-    depth), springs k = spring_per_cu x c_u per metre of pile (Davisson 1970). Sand: gamma
-    buoyant when the water level is above the bottom of the top 5 D of the resisting part,
-    springs k = n_h z (Terzaghi 1955). EI = ei_cracked_factor x E_c I_g with
-    E_c = 4700 sqrt(f'_c) MPa (ACI 318-19 19.2.2.1(b)). Broms uses the nominal pure-bending
-    moment of the as-built section as M_y (compression ignored: conservative).
-    """
-    rules, d = pile.rules, pile.design
-    layer, z_top = _lateral_soil(pile)
-    free = pile.cutoff - z_top                    # m of pile above the resisting soil
-    length = pile.cutoff - pile.toe
-    embedded = z_top - pile.toe
+    step = LATERAL_STEP_M
+    z_top = min(layer.top, math.ceil(min(top, layer.top) / step - 1e-9) * step)
+    free = max(0.0, math.ceil((pile.cutoff - z_top) / step - 1e-9) * step)
+    embedded = math.floor((z_top - pile.toe) / step + 1e-9) * step
     if embedded <= 0.0:
         raise _NotChecked("The as-built toe is above the soil that resists lateral load")
-    my = section.pure_bending if section is not None else None
-    diameter = pile.diameter
+    return i, round(z_top, 6), round(free, 6), round(embedded, 6)
+
+
+def _cu_at(layer, level: float) -> float:
+    """c_u (kPa) at ``level`` as ``Layer.cu_at`` (linear, clipped to the layer), in floats."""
+    bottom = layer.cu if layer.cu_bottom is None else layer.cu_bottom
+    frac = min(1.0, max(0.0, (layer.top - level) / (layer.top - layer.bottom)))
+    return layer.cu + (bottom - layer.cu) * frac
+
+
+def _winkler(pile: _Pile, geometry):
+    """Head deflection per unit H and M on the pile's springs; see ``_lateral_analysis``."""
+    rules, g = pile.rules, pile.ground
+    i, z_top, free, embedded = geometry
+    layer = g.layers[i]
     if layer.material == "cohesive":
-        cu = float(layer.cu_at(z_top))
-        broms = broms_lateral("cohesive", diameter, embedded, d.head, free, cu=cu, yield_moment=my)
-        k0 = rules.spring_per_cu * cu
+        k0 = rules.spring_per_cu * _cu_at(layer, z_top)
 
         def spring(z):
-            return np.where(z >= free - 1e-12, k0, 0.0)
-        soil = f"c_u {cu:.0f} kPa from layer {pile.ground.layers.index(layer)}"
+            return np.where(z >= free - 1e-9, k0, 0.0)
     else:
-        wet = pile.ground.water_level > z_top - 5.0 * diameter
-        gamma = layer.unit_weight - (rules.gamma_w if wet else 0.0)
-        broms = broms_lateral("cohesionless", diameter, embedded, d.head, free,
-                              unit_weight=gamma, phi=layer.phi, yield_moment=my)
         nh = rules.spring_nh_sand
 
         def spring(z):
             return nh * np.maximum(z - free, 0.0)
-        soil = (f"phi {layer.phi:g} deg, gamma' {gamma:.1f} kN/m3 from layer "
-                f"{pile.ground.layers.index(layer)}")
     ec = 4700.0 * math.sqrt(pile.fc_mpa) * 1000.0          # kPa
-    ei = rules.ei_cracked_factor * ec * math.pi * diameter ** 4 / 64.0
-    depth, unit = winkler_unit_responses(ei, length, spring, d.head, WINKLER_NODES)
+    ei = rules.ei_cracked_factor * ec * math.pi * pile.diameter ** 4 / 64.0
+    depth, unit = winkler_unit_responses(ei, free + embedded, spring, pile.design.head,
+                                         WINKLER_NODES)
+    return depth, unit, ei
+
+
+def _lateral_analysis(pile: _Pile, section: InteractionCurve | None, cache: _Cache | None):
+    """Broms result, Winkler unit responses, EI and a text naming the soil.
+
+    Simplification: the soil is the single layer at or below the top of the pile
+    (``_lateral_geometry``), taken as extending to the toe. Clay: c_u at the top of that
+    layer's resisting part (the lower end of a c_u that rises with depth), springs
+    k = spring_per_cu x c_u per metre of pile (Davisson 1970). Sand: gamma buoyant when the
+    water level is above the bottom of the top 5 D of the resisting part, springs k = n_h z
+    below it (Terzaghi 1955). EI = ei_cracked_factor x E_c I_g with E_c = 4700 sqrt(f'_c) MPa
+    (ACI 318-19 19.2.2.1(b)). Broms takes M_y as the nominal pure-bending moment of the
+    as-built section (compression ignored: conservative) and the free length as the load's
+    height above the soil (free head).
+    """
+    rules, d, g = pile.rules, pile.design, pile.ground
+    geometry = _lateral_geometry(pile)
+    i, z_top, free, embedded = geometry
+    layer = g.layers[i]
+    my = section.pure_bending if section is not None else None
+    if layer.material == "cohesive":
+        cu = _cu_at(layer, z_top)
+        broms = broms_lateral("cohesive", pile.diameter, embedded, d.head, free, cu=cu,
+                              yield_moment=my)
+        soil = f"c_u {cu:.0f} kPa from layer {i}"
+    else:
+        wet = g.water_level > z_top - 5.0 * pile.diameter
+        gamma = layer.unit_weight - (rules.gamma_w if wet else 0.0)
+        broms = broms_lateral("cohesionless", pile.diameter, embedded, d.head, free,
+                              unit_weight=gamma, phi=layer.phi, yield_moment=my)
+        soil = f"phi {layer.phi:g} deg, gamma' {gamma:.1f} kN/m3 from layer {i}"
+    if cache is None:
+        depth, unit, ei = _winkler(pile, geometry)
+    else:
+        key = (pile.gkey, round(pile.diameter, 6), d.head, geometry, round(pile.fc_mpa, 3))
+        found = cache.lateral.get(key)
+        if found is None:
+            found = cache.lateral[key] = _winkler(pile, geometry)
+            if isinstance(key[0], tuple):
+                cache.keep.append(g)
+        depth, unit, ei = found
     return broms, depth, unit, ei, soil
 
 
@@ -513,28 +573,12 @@ def _check_lateral(pile: _Pile, cache, details) -> Check:
         section = _section(pile, cache)
     except ValueError:
         section = None
-    key = None
-    if cache is not None:
-        key = (_ground_key(pile.ground), round(pile.diameter, 6), round(pile.cutoff, 6),
-               round(pile.toe, 6), d.head, round(pile.cover_mm, 3), d.n_bars, d.bar_mm,
-               round(pile.fc_mpa, 3), d.fy_mpa)
-        found = cache.lateral.get(key)
-    else:
-        found = None
-    if found is None:
-        try:
-            found = _lateral_analysis(pile, section)
-        except _NotChecked as exc:
-            found = exc
-        except ValueError as exc:
-            found = _NotChecked(f"Lateral analysis could not be made: {exc}")
-        if cache is not None:
-            cache.lateral[key] = found
-            if isinstance(key[0], tuple):
-                cache.keep.append(pile.ground)
-    if isinstance(found, _NotChecked):
-        return Check.not_checked(code, "kN", str(found))
-    broms, depth, unit, ei, soil = found
+    try:
+        broms, depth, unit, ei, soil = _lateral_analysis(pile, section, cache)
+    except _NotChecked as exc:
+        return Check.not_checked(code, "kN", str(exc))
+    except ValueError as exc:
+        return Check.not_checked(code, "kN", f"Lateral analysis could not be made: {exc}")
     allowed = broms.ultimate / rules.broms_factor
     util_h = _util(shear, allowed)
     y = unit[:, 0] * shear + unit[:, 1] * moment
@@ -554,7 +598,8 @@ def _check_lateral(pile: _Pile, cache, details) -> Check:
     return Check(code, defl_mm, limit_mm, "mm", util_y, ok, text)
 
 
-def _check_group(pile: _Pile, group: CapGroup | None, axial, details) -> tuple[Check, float | None]:
+def _check_group(pile: _Pile, group: CapGroup | None, axial, details,
+                 cache: _Cache | None = None) -> tuple[Check, float | None]:
     code, rules, d = "group_share", pile.rules, pile.design
     if group is None:
         if d.cap:
@@ -575,16 +620,32 @@ def _check_group(pile: _Pile, group: CapGroup | None, axial, details) -> tuple[C
             xy.append(p.xy)
     load_point = group.load_point
     if load_point is None:
-        load_point = tuple(np.mean([p.design_xy for p in group.piles], axis=0))
-    try:
-        shares = group_shares(xy, group.n, group.mx, group.my, load_point)
-    except ValueError as exc:
-        return Check.not_checked(code, "kN", f"Cap {group.mark}: {exc}"), None
+        k = len(group.piles)
+        load_point = (sum(p.design_xy[0] for p in group.piles) / k,
+                      sum(p.design_xy[1] for p in group.piles) / k)
+    key = (id(group), tuple(xy))
+    shares = cache.groups.get(key) if cache is not None else None
+    if shares is None:
+        try:
+            shares = group_shares(xy, group.n, group.mx, group.my, load_point, across="ignore")
+            spill = across_moment(xy, group.n, group.mx, group.my, load_point)
+            shares = (shares, spill)
+        except ValueError as exc:
+            shares = _NotChecked(f"Cap {group.mark}: {exc}")
+        if cache is not None:
+            cache.groups[key] = shares
+            cache.keep.append(group)
+    if isinstance(shares, _NotChecked):
+        return Check.not_checked(code, "kN", str(shares)), None
+    shares, spill = shares
     details["shares"] = shares
     details["group_marks"] = tuple(marks)
     share = float(shares[marks.index(d.mark)])
     surveyed = sum(1 for p in group.piles if p.asbuilt_xy is not None)
     where = f"cap {group.mark}, {len(marks)} piles, {surveyed} surveyed"
+    if spill > 0.05:
+        where += f"; {spill:.0f} kNm across the line of piles left to the cap's tie beams"
+    details["across_moment"] = spill
     if isinstance(axial, _NotChecked):
         return Check.not_checked(code, "kN", f"Share {share:.0f} kN ({where}) not set against a "
                                  f"resistance: {axial}"), share
@@ -815,11 +876,11 @@ def _run(pile: _Pile, group: CapGroup | None, curve, cache: _Cache | None) -> Pi
         axial = exc
     except ValueError as exc:
         axial = _NotChecked(f"Axial capacity could not be worked out: {exc}")
-    group_check, share = _check_group(pile, group, axial, details)
+    group_check, share = _check_group(pile, group, axial, details, cache)
     checks = (
         _check_compression(pile, axial),
         _check_tension(pile, axial),
-        _check_structural(pile, share, cache, details),
+        _check_structural(pile, share, group, cache, details),
         _check_lateral(pile, cache, details),
         group_check,
         _check_cover(pile),
@@ -868,8 +929,8 @@ def recheck_project(items: Iterable, rules: Rules | None = None,
     items: ProjectItem or (design, asbuilt, ground) tuples; groups: {cap mark: CapGroup} for the
     piles whose ``design.cap`` names a cap. Piles sharing a ground model object (or an equal
     one), diameter, cut-off and pile type share one capacity curve evaluated at all their toes;
-    equal sections share one interaction curve; equal (ground, section, length, head) share one
-    lateral analysis. Marks must be unique (ValueError naming the mark).
+    equal sections share one interaction curve; equal Winkler inputs share one solve; each cap
+    is shared out once. Marks must be unique (ValueError naming the mark).
     """
     rules = Rules() if rules is None else rules
     groups = groups or {}

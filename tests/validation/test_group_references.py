@@ -6,7 +6,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from design_core.group import group_shares
+from design_core.group import across_moment, group_shares
 
 DESIGN = [(1.2, 1.2), (-1.2, 1.2), (-1.2, -1.2), (1.2, -1.2)]
 AS_BUILT = [(1.3, 1.2), (-1.2, 1.2), (-1.2, -1.2), (1.2, -1.2)]
@@ -48,6 +48,16 @@ def test_two_piles_share_moment_along_their_line():
     assert group_shares([(1, 0), (-1, 0)], 1000.0, my=100.0) == pytest.approx([550.0, 450.0])
     with pytest.raises(ValueError, match="line"):
         group_shares([(1, 0), (-1, 0)], 1000.0, mx=100.0)
+
+
+def test_moment_across_a_line_of_piles_can_be_left_to_tie_beams():
+    # Statics: two piles on the x axis carry My by push-pull; Mx (across the line) they cannot.
+    p = group_shares([(1, 0), (-1, 0)], 1000.0, mx=80.0, my=100.0, across="ignore")
+    assert p == pytest.approx([550.0, 450.0])
+    assert across_moment([(1, 0), (-1, 0)], 1000.0, mx=80.0, my=100.0) == pytest.approx(80.0)
+    # N off the line is a moment across it: 1000 kN at y = 0.05 m -> 50 kNm
+    assert across_moment([(1, 0), (-1, 0)], 1000.0, load_point=(0.0, 0.05)) == pytest.approx(50.0)
+    assert across_moment(AS_BUILT, 4000.0, mx=400.0) == 0.0
 
 
 def test_single_pile_takes_the_load():

@@ -193,3 +193,18 @@ def test_springs_may_vary_with_depth():
     r = winkler_pile(EI, 20.0, lambda z: 5000.0 * z, shear=80.0, nodes=400)
     force = np.trapezoid(5000.0 * r.depth * r.deflection, r.depth)
     assert force == pytest.approx(80.0, rel=5e-3)
+
+
+def test_pentadiagonal_solver_matches_a_dense_solve():
+    # Linear algebra check (not a published example): LDL^T on a random SPD pentadiagonal system.
+    from design_core.lateral import solve_pentadiagonal
+    rng = np.random.default_rng(7)
+    n = 40
+    d = 6.0 + rng.random(n)
+    e = -4.0 + 0.1 * rng.random(n - 1)
+    f = 1.0 + 0.1 * rng.random(n - 2)
+    a = np.diag(d) + np.diag(e, 1) + np.diag(e, -1) + np.diag(f, 2) + np.diag(f, -2)
+    a = a + 4.0 * np.eye(n)          # make sure it is positive definite
+    rhs = rng.random((n, 2))
+    x = solve_pentadiagonal(np.diag(a), e, f, rhs)
+    assert np.allclose(a @ x, rhs, atol=1e-10)
