@@ -171,7 +171,11 @@
     } catch (err) {
       const full = err && (err.name === "QuotaExceededError" || /quota/i.test(String(err.message)));
       const why = full ? "the tablet's storage for this site is full" : String(err && err.message || err);
-      throw new Error("NOT saved on the tablet: " + why + ". Keep this screen open and send the waiting items first.");
+      const message = "NOT saved on the tablet: " + why + ". Keep this screen open and send the waiting items first.";
+      state.lastError = message;
+      state.panelOpen = true;
+      renderPanel();
+      throw new Error(message);
     }
     changed();
   }
@@ -585,13 +589,10 @@
     state.outboxBytes = lastCounts.bytes;
     const el = document.getElementById("outbox-status");
     if (el) {
-      const parts = [];
-      if (lastCounts.waiting || lastCounts.conflict || lastCounts.rejected) {
-        parts.push(lastCounts.waiting + " waiting");
-      }
+      const parts = [lastCounts.waiting + " waiting"];  // always shown, 0 included (PRODUCT.md 9)
       if (lastCounts.conflict) parts.push(lastCounts.conflict + " to resolve");
       if (lastCounts.rejected) parts.push(lastCounts.rejected + " refused");
-      if (parts.length && state.persisted === false) parts.push("storage not guaranteed");
+      if (lastCounts.waiting && state.persisted === false) parts.push("storage not guaranteed");
       el.textContent = parts.join(" · ");
       el.dataset.waiting = String(lastCounts.waiting);
       el.dataset.conflicts = String(lastCounts.conflict);

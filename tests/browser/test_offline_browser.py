@@ -12,6 +12,7 @@ The site is invented test data.
 from __future__ import annotations
 
 import base64
+import hashlib
 import io
 import os
 import shutil
@@ -211,6 +212,7 @@ class Api:
                                      "record": record}, headers={"X-CSRFToken": token})
 
 
+PHOTO = png_bytes()
 SHORT = {"progress": "boring", "platform_level": 50.0, "measured_depth": 4.0}
 
 
@@ -236,7 +238,7 @@ def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site
     waiting_is(page, 1)
     assert "1 waiting" in page.locator("#outbox-status").inner_text()
     assert page.locator("#outbox-send").is_visible()
-    answer = save_photo_js(page, pid, "P1", png_bytes())
+    answer = save_photo_js(page, pid, "P1", PHOTO)
     assert answer["queued"] is True
     waiting_is(page, 2)
 
@@ -256,6 +258,7 @@ def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site
     assert versions[0]["verdict"] == "needs engineer"
     photos = api.photos("P1")
     assert len(photos) == 1
+    assert photos[0]["sha256"] == hashlib.sha256(PHOTO).hexdigest()  # the original bytes, kept
     assert outbox_counts(page) == {"waiting": 0, "conflict": 0, "rejected": 0, "bytes": 0}
     bundle_pile = page.evaluate(f"window.ToelineOutbox.getBundle({pid}).then((b) => b.piles.P1)")
     assert bundle_pile["version"] == 1 and bundle_pile["verdict"] == "needs engineer"
@@ -325,3 +328,85 @@ def test_a_conflict_is_shown_side_by_side_and_nothing_is_lost(tablet, site):
     versions = api.history("P3")
     assert [v["version"] for v in versions] == [1, 2, 3]
     assert versions[1]["record"]["rig"] == "office rig" and versions[2]["record"]["rig"] == "tablet rig"
+
+
+def test_an_expired_login_keeps_every_item_and_asks_to_sign_in(tablet, site):
+    pid = site["pid"]
+    api = Api(site)
+    page = tablet.open()
+    login(page, site, site["inspector"])
+    page.goto(tablet.url(f"/projects/{pid}/piles"))
+    wait_controlled(page)
+    tablet.context.set_offline(True)
+    assert save_record_js(page, pid, "P1", SHORT, 0)["queued"] is True
+    tablet.context.clear_cookies()  # the session ends while the tablet is out of signal
+    tablet.context.set_offline(False)
+    prompt = page.locator("#outbox-login")
+    prompt.wait_for()
+    assert "Sign in again" in prompt.inner_text()
+    waiting_is(page, 1)
+    assert api.history("P1") == []
+
+    prompt.locator("a").click()
+    page.fill("#email", site["inspector"])
+    page.fill("#password", PASSWORD)
+    page.click("button[type=submit]")
+    page.wait_for_load_state()
+    assert page.url.endswith(f"/projects/{pid}/piles")
+    waiting_is(page, 0)
+    assert len(api.history("P1")) == 1
+
+
+def test_storage_is_shown_and_a_photo_past_the_quota_is_refused_aloud(browser_type, chromium, site):
+    """Persistence asked for and its answer said; outbox size against the quota; a warning
+    before the quota; past it the save fails with a message (never a silent drop).
+
+    A fresh (non-persistent) context, because Chromium applies the DevTools quota override
+    (Storage.overrideQuotaForOrigin) there; it does not change what navigator.storage.estimate()
+    reports, so the "nearly full" figure is given to the page by replacing estimate().
+    """
+    pid = site["pid"]
+    browser = browser_type.launch(executable_path=chromium, args=ARGS, headless=True)
+    try:
+        context = browser.new_context(viewport={"width": 1280, "height": 800})
+        context.set_default_timeout(20_000)
+        page = context.new_page()
+        # A real quota of 2 MB for the site, set before it stores anything (DevTools protocol).
+        cdp = context.new_cdp_session(page)
+        cdp.send("Storage.overrideQuotaForOrigin", {"origin": site["base"], "quotaSize": 2_000_000})
+        login(page, site, site["inspector"])
+        page.goto(site["base"] + f"/projects/{pid}/piles")
+        wait_controlled(page)
+        info = page.evaluate("window.ToelineOutbox.storage()")
+        page.click("#outbox-status")
+        panel = page.locator("#outbox-panel")
+        panel.wait_for()
+        if info["persisted"] is False:
+            assert "did not agree to keep" in panel.inner_text()
+        else:
+            assert info["persisted"] is True and "keeps this storage" in panel.inner_text()
+        assert "the browser allows" in page.locator("#outbox-storage").inner_text()
+        context.set_offline(True)
+
+        # The browser reports 85 % of the quota used: the next save warns before the quota.
+        page.evaluate("""() => Object.defineProperty(navigator.storage, 'estimate', {configurable: true,
+            value: async () => ({usage: 8500000, quota: 10000000})})""")
+        small = page.evaluate("""async (pid) => {
+            const file = new File([new Uint8Array(200000)], 'cage.jpg', {type: 'image/jpeg'});
+            return await window.ToelineOutbox.savePhoto(pid, 'P2', file, {kind: 'cage'});
+        }""", pid)
+        assert small["queued"] is True
+        until(page, """() => { const w = document.getElementById('outbox-storage-warning');
+                               return w && w.textContent.includes('nearly full'); }""")
+
+        # Past the real quota the save fails aloud.
+        refused = page.evaluate("""async (pid) => {
+            const file = new File([new Uint8Array(3000000)], 'huge.jpg', {type: 'image/jpeg'});
+            try { await window.ToelineOutbox.savePhoto(pid, 'P2', file, {kind: 'cage'}); return 'stored'; }
+            catch (err) { return String(err.message); }
+        }""", pid)
+        assert refused.startswith("NOT saved on the tablet"), refused
+        assert outbox_counts(page)["waiting"] == 1  # the first photo is still there
+        context.close()
+    finally:
+        browser.close()
