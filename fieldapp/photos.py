@@ -44,6 +44,8 @@ FORMATS = {"JPEG": "jpg", "PNG": "png", "WEBP": "webp", "TIFF": "tif", "GIF": "g
            "MPO": "jpg"}
 KINDS = photos_q.KINDS
 CAPTION_MAX = 500
+# ISO base media "ftyp" brands of HEIC/HEIF files (phone cameras), which Pillow cannot decode.
+HEIF_BRANDS = {b"heic", b"heix", b"hevc", b"hevx", b"heim", b"heis", b"mif1", b"msf1"}
 
 # Pillow refuses images over twice this and warns over it; we refuse at the limit itself.
 Image.MAX_IMAGE_PIXELS = MAX_PIXELS
@@ -133,6 +135,9 @@ def _open(data: bytes) -> Image.Image:
         raise PhotoRejected(f"the image has too many pixels: at most {MAX_PIXELS // 1_000_000} "
                             "megapixels") from None
     except (UnidentifiedImageError, OSError, ValueError, SyntaxError):
+        if data[4:8] == b"ftyp" and data[8:12] in HEIF_BRANDS:
+            raise PhotoRejected("HEIC/HEIF photos cannot be read here: set the camera to JPEG "
+                                "('most compatible') or send a JPEG or PNG copy") from None
         raise PhotoRejected("the file is not an image Toeline can read (JPEG, PNG, WebP, TIFF, GIF, BMP)") from None
     if image.format not in FORMATS:
         raise PhotoRejected(f"{image.format} files are not accepted: send JPEG, PNG, WebP, TIFF, GIF or BMP")
