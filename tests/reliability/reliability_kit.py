@@ -100,3 +100,20 @@ def small_png(size: int = 32) -> bytes:
     out = io.BytesIO()
     Image.new("RGB", (size, size), (10, 120, 200)).save(out, "PNG")
     return out.getvalue()
+
+
+def make_app(data: Path):
+    """The Flask app on a data folder with CSRF on, as in production."""
+    from fieldapp import create_app
+
+    return create_app({"TESTING": True}, data_dir=data)
+
+
+def sign_in(client, role: str) -> str:
+    """Sign a Flask test client in as the demo user of ``role``; returns a CSRF token."""
+    email, password = LOGINS[role]
+    page = client.get("/login").get_data(as_text=True)
+    answer = client.post("/login", data={"email": email, "password": password,
+                                         "csrf_token": _META.search(page).group(1)})
+    assert answer.status_code == 302, answer.get_data(as_text=True)[:300]
+    return client.get("/api/v1/session").get_json()["csrf_token"]
