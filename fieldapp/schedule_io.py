@@ -258,7 +258,8 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
         if not any(e.column in FIELD_BY_NAME for e in row_errors):
             for column, message in check_pile(values):
                 row_errors.append(RowError(number, column, message))
-        errors.extend(row_errors)
+        order = {name: i for i, name in enumerate(COLUMNS)}
+        errors.extend(sorted(row_errors, key=lambda e: order.get(e.column, -1)))
         if not row_errors:
             clean_rows.append(values)
     return clean_rows, errors

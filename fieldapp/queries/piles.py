@@ -126,7 +126,7 @@ def check_pile(values: dict) -> list[tuple[str, str]]:
     if n_bars is not None and 0 < n_bars < 3:
         errors.append(("n_bars", f"n_bars must be 0 or 3 to 200 bars in a circular cage, got {n_bars}"))
     cage = values.get("cage_length_m")
-    if cut is not None and toe is not None and cage and cage > cut - toe + 1e-9:
+    if cut is not None and toe is not None and toe < cut and cage and cage > cut - toe + 1e-9:
         errors.append(("cage_length_m", f"cage_length_m ({cage:g} m) must be at most the pile length "
                        f"{cut - toe:g} m (cut-off to toe)"))
     return errors
