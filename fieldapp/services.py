@@ -86,7 +86,8 @@ STRATUM_NUMBERS = {"from_depth": (0.0, 500.0, "m"), "to_depth": (0.0, 500.0, "m"
 MAX_DELIVERIES = 50
 MAX_STRATA = 100
 RECORD_KEYS = (tuple(NUMBER_FIELDS) + TIME_FIELDS + tuple(TEXT_FIELDS)
-               + ("base_check", "exposure_class", "deliveries", "strata", "progress"))
+               + ("base_check", "exposure_class", "deliveries", "strata", "progress",
+                  "permanent_casing"))
 
 CURVE_STEP_M = 0.1
 CURVE_MAX_POINTS = 600
@@ -298,6 +299,13 @@ def validate_record(raw: Any, rules: Rules, design: PileDesign | None = None,
         else:
             clean["exposure_class"] = exposure
 
+    casing = raw.get("permanent_casing")
+    if casing is not None:
+        if not isinstance(casing, bool):
+            errors["permanent_casing"] = "must be true or false (or null: as designed)"
+        else:
+            clean["permanent_casing"] = casing
+
     deliveries = _deliveries(raw.get("deliveries"), errors)
     if deliveries:
         clean["deliveries"] = deliveries
@@ -445,6 +453,8 @@ def asbuilt_from_record(record: dict[str, Any]) -> AsBuilt:
                    s.get("layer_index"))
         for s in record.get("strata", ()))
     kwargs = {name: record.get(name) for name in NUMBER_FIELDS}
+    if record.get("permanent_casing") is not None:
+        kwargs["permanent_casing"] = record["permanent_casing"]
     return AsBuilt(base_check=record.get("base_check"), exposure_class=record.get("exposure_class"),
                    deliveries=deliveries, strata=strata, **kwargs)
 
@@ -561,6 +571,10 @@ def design_dict(design: PileDesign) -> dict[str, Any]:
         "bar_mm": design.bar_mm, "cage_length": design.cage_length,
         "concrete_mpa": design.fc_mpa, "exposure_class": design.exposure_class,
         "cover_mm": design.cover_mm, "inclination": 0.0,
+        # plan area of the design section (m2): the recheck's theoretical concrete volume is
+        # this times the length from the toe to the casting level (or cut-off)
+        "area_m2": math.pi * design.diameter ** 2 / 4.0,
+        "permanent_casing": bool(getattr(design, "permanent_casing", False)),
     }
 
 
@@ -577,6 +591,8 @@ def limits_dict(rules: Rules) -> dict[str, Any]:
         "volume_ratio_max": rules.volume_ratio_max,
         "batch_to_discharge_min": rules.batch_to_discharge_min,
         "min_cover_mm": {row.code: rules.min_cover_mm(row.code) for row in rules.exposure_table},
+        "min_cover_cased_mm": {row.code: rules.min_cover_mm(row.code, cast_against_soil=False)
+                               for row in rules.exposure_table},
         "min_strength_mpa": {row.code: row.min_strength_mpa for row in rules.exposure_table},
     }
 

@@ -143,3 +143,10 @@ def set_pile_state(conn: sqlite3.Connection, pile_id: int, *, progress: str, ver
     conn.execute(
         "UPDATE piles SET progress = ?, verdict = ?, worst_utilisation = ?, current_version = ? "
         "WHERE id = ?", (progress, verdict, worst_utilisation, version, pile_id))
+
+
+def last_saved_pile_id(conn: sqlite3.Connection, project_id: int) -> int | None:
+    """The pile whose record was saved most recently in the project (where the rig last was)."""
+    row = conn.execute("SELECT pile_id FROM pile_records WHERE project_id = ? ORDER BY id DESC LIMIT 1",
+                       (project_id,)).fetchone()
+    return row["pile_id"] if row else None

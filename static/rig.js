@@ -1,0 +1,637 @@
+// Toeline, At the rig: the one-page pile record with live checks (PRODUCT.md section 4).
+//
+// The page embeds what the server worked out for this pile (services.rig_data) as JSON in
+// <script type="application/json" id="rig-data">: design values, the newest record, the
+// capacity curve (design resistance against toe level), the level the design load needs,
+// and the limits of the project's rules. This file only interpolates, compares and formats
+// those numbers; every engineering method lives on the server (design_core), which rechecks
+// the whole pile on every save.
+//
+// Saves go through window.ToelineOutbox (static/outbox.js: IndexedDB first, then the API)
+// when it is there, else straight to the API. Offline, or on the cached page of another pile,
+// the pile's data comes from the outbox's project bundle.
+//
+// Sections: data, numbers and formatting, the form (fill and gather), live checks, repeating
+// rows (strata, deliveries), saving, the result, photos, start.
+
+(function () {
+  "use strict";
+
+  // --- Data ------------------------------------------------------------------------------
+  const dataEl = document.getElementById("rig-data");
+  if (!dataEl) return;
+  let data = JSON.parse(dataEl.textContent);
+  const options = JSON.parse(document.getElementById("rig-options").textContent);
+  const form = document.getElementById("rig-form");
+  const byId = (id) => document.getElementById(id);
+
+  // --- Numbers and formatting --------------------------------------------------------------
+  // A typed number: "12,5" and "12.5" both read 12.5 (as the server does); blank is null;
+  // anything else is NaN so the live checks can say it is not a number.
+  function parseNum(text) {
+    if (text === null || text === undefined) return null;
+    const t = String(text).trim().replace("\u2212", "-");
+    if (t === "") return null;
+    if (t.indexOf(",") >= 0 && t.indexOf(".") >= 0) return NaN;
+    if (!/^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?$/.test(t)) return NaN;
+    const n = Number(t.replace(",", "."));
+    return Number.isFinite(n) ? n : NaN;
+  }
+  const isNum = (x) => typeof x === "number" && Number.isFinite(x);
+  function fixed(x, dp) { return isNum(x) ? x.toFixed(dp) : "–"; }
+  function grouped(x) {
+    return isNum(x) ? Math.round(x).toLocaleString("en-GB") : "–";
+  }
+  function level(x) { return isNum(x) ? x.toFixed(2) + " m" : "–"; }
+
+  // Linear interpolation of the server's curve at a toe level (null outside it).
+  function curveAt(z) {
+    const c = data.curve;
+    if (!c || !c.toe_levels || !c.toe_levels.length || !isNum(z)) return null;
+    const pts = c.toe_levels.map((t, i) => [t, c.design[i]]).sort((a, b) => a[0] - b[0]);
+    if (z < pts[0][0] - 1e-6 || z > pts[pts.length - 1][0] + 1e-6) return null;
+    for (let i = 1; i < pts.length; i++) {
+      if (z <= pts[i][0]) {
+        const [z0, d0] = pts[i - 1], [z1, d1] = pts[i];
+        return z1 === z0 ? d0 : d0 + (d1 - d0) * (z - z0) / (z1 - z0);
+      }
+    }
+    return pts[pts.length - 1][1];
+  }
+
+  // --- The form: fill from a record, gather into a record ------------------------------------
+  function fieldInputs() {
+    return Array.from(document.querySelectorAll("[data-path]")).filter((el) => !el.closest("tr"));
+  }
+
+  function toLocalInput(value) {
+    if (!value) return "";
+    const plain = /^(\d{4}-\d{2}-\d{2}T\d{2}:\d{2})(:\d{2}(\.\d+)?)?$/.exec(value);
+    if (plain) return plain[1];
+    const d = new Date(value);  // with a zone: show it in the tablet's local time
+    if (isNaN(d.getTime())) return "";
+    const pad = (n) => String(n).padStart(2, "0");
+    return d.getFullYear() + "-" + pad(d.getMonth() + 1) + "-" + pad(d.getDate()) + "T" +
+      pad(d.getHours()) + ":" + pad(d.getMinutes());
+  }
+
+  function setValue(el, value) {
+    if (value === undefined || value === null) { el.value = ""; return; }
+    if (el.dataset.kind === "time") el.value = toLocalInput(value);
+    else el.value = String(value);
+  }
+
+  function fill() {
+    const rec = data.record || {};
+    fieldInputs().forEach((el) => setValue(el, rec[el.dataset.path]));
+    const progress = byId("f-progress");
+    if (progress) progress.value = rec.progress && rec.progress !== "planned" ? rec.progress : "boring";
+    document.querySelectorAll("[data-design]").forEach((el) => {
+      const v = data.design ? data.design[el.dataset.design] : null;
+      el.textContent = v === null || v === undefined ? "–" : String(v);
+    });
+    byId("strata-rows").textContent = "";
+    (rec.strata || []).forEach(addStratum);
+    byId("delivery-rows").textContent = "";
+    (rec.deliveries || []).forEach(addDelivery);
+    byId("version-now").textContent = data.version || 0;
+    byId("progress-now").textContent = data.progress || "planned";
+    if (data.result) showResult(data.result);
+    live();
+  }
+
+  function valueOf(el) {
+    if (el.dataset.kind === "number") {
+      const n = parseNum(el.value);
+      return n === null ? null : (Number.isNaN(n) ? el.value : n);  // the server names bad text
+    }
+    if (el.dataset.kind === "int") return el.value === "" ? null : Number(el.value);
+    const v = el.value.trim();
+    return v === "" ? null : v;
+  }
+
+  function gather() {
+    const rec = {};
+    fieldInputs().forEach((el) => {
+      const v = valueOf(el);
+      if (v !== null) rec[el.dataset.path] = v;
+    });
+    const strata = rows("strata-rows");
+    if (strata.length) rec.strata = strata;
+    const deliveries = rows("delivery-rows");
+    if (deliveries.length) rec.deliveries = deliveries;
+    return rec;
+  }
+
+  function rows(bodyId) {
+    return Array.from(byId(bodyId).querySelectorAll("tr")).map((tr) => {
+      const row = {};
+      tr.querySelectorAll("[data-key]").forEach((el) => {
+        const v = valueOf(el);
+        if (v !== null) row[el.dataset.key] = v;
+      });
+      return row;
+    }).filter((row) => Object.keys(row).length > 0);
+  }
+
+  function num(path) {
+    const el = form.querySelector('[data-path="' + path + '"]') || document.querySelector('[data-path="' + path + '"]');
+    return el ? parseNum(el.value) : null;
+  }
+  function text(path) {
+    const el = document.querySelector('[data-path="' + path + '"]');
+    return el ? el.value.trim() : "";
+  }
+
+  // --- Live checks ---------------------------------------------------------------------------
+  // Each writes one line: "OK"/"SHORT" in words (not colour alone) and the figures.
+  function say(id, state, message) {
+    const el = byId("live-" + id);
+    if (!el) return;
+    el.className = "live " + (state || "");
+    el.textContent = message || "";
+    el.dataset.state = state || "";
+  }
+  const WORD = { ok: "OK: ", short: "SHORT: ", bad: "Check: " };
+  function result(id, ok, message) { say(id, ok ? "ok" : "short", (ok ? WORD.ok : WORD.short) + message); }
+  function notNumber(id, path) {
+    const n = num(path);
+    if (Number.isNaN(n)) { say(id, "bad", WORD.bad + path + " is not a number"); return true; }
+    return false;
+  }
+
+  function liveToe() {
+    const platform = num("platform_level"), depth = num("measured_depth");
+    const req = data.required_toe_level, load = data.load_kn;
+    byId("required-toe").textContent = isNum(req) ? level(req) + " for " + grouped(load) + " kN" :
+      (data.curve ? "not reached in the ground model" : (data.curve_error || "–"));
+    if (notNumber("toe", "platform_level") || notNumber("toe", "measured_depth")) return;
+    if (!isNum(platform) || !isNum(depth)) {
+      byId("toe-level").textContent = "–";
+      byId("capacity-here").textContent = "–";
+      say("toe", "", isNum(depth) ? "Type the platform level to get the toe." : "");
+      return;
+    }
+    const toe = platform - depth;
+    byId("toe-level").textContent = level(toe);
+    const here = curveAt(toe);
+    byId("capacity-here").textContent = here === null ? "outside the curve" : grouped(here) + " kN";
+    const design = data.design || {};
+    const vsDesign = isNum(design.toe_level)
+      ? (toe > design.toe_level + 0.005 ? "; " + fixed(toe - design.toe_level, 2) + " m above the design toe"
+         : toe < design.toe_level - 0.005 ? "; " + fixed(design.toe_level - toe, 2) + " m below the design toe"
+         : "; at the design toe") : "";
+    if (isNum(req)) {
+      const more = toe - req;
+      if (more > 0.005) result("toe", false, fixed(more, 2) + " m more needed for " + grouped(load) + " kN" + vsDesign);
+      else result("toe", true, "reaches design with " + fixed(-more, 2) + " m to spare" + vsDesign);
+    } else if (data.curve && isNum(load) && load > 0) {
+      result("toe", false, "the ground model cannot carry " + grouped(load) + " kN at any toe" + vsDesign);
+    } else {
+      say("toe", "", "Toe at " + level(toe) + vsDesign);
+    }
+  }
+
+  function liveDebris() {
+    if (notNumber("debris", "debris_mm")) return;
+    const v = num("debris_mm"), lim = data.limits.base_debris_mm;
+    if (!isNum(v)) return say("debris", "", "");
+    result("debris", v <= lim + 1e-9, fixed(v, 0) + " mm against at most " + fixed(lim, 0) + " mm");
+  }
+
+  function exposureNow() { return text("exposure_class") || (data.design || {}).exposure_class; }
+
+  function liveCover() {
+    if (notNumber("cover", "cover_mm")) return;
+    const v = num("cover_mm"), cls = exposureNow();
+    const cased = (data.record && data.record.permanent_casing !== undefined)
+      ? data.record.permanent_casing : (data.design || {}).permanent_casing;
+    const table = cased ? data.limits.min_cover_cased_mm : data.limits.min_cover_mm;
+    const need = table ? table[cls] : undefined;
+    if (!isNum(v)) return say("cover", "", isNum(need) ? "At least " + fixed(need, 0) + " mm for " + cls : "");
+    if (!isNum(need)) return say("cover", "bad", WORD.bad + "exposure class " + cls + " is not in the project's rules");
+    result("cover", v >= need - 1e-9, fixed(v, 0) + " mm against at least " + fixed(need, 0) + " mm for " + cls +
+           (cased ? " (in a permanent casing)" : " (cast against soil)"));
+  }
+
+  function liveGrade() {
+    if (notNumber("grade", "concrete_mpa")) return;
+    const v = num("concrete_mpa"), cls = exposureNow();
+    const need = data.limits.min_strength_mpa ? data.limits.min_strength_mpa[cls] : undefined;
+    if (!isNum(v) || !isNum(need)) return say("grade", "", "");
+    result("grade", v >= need - 1e-9, fixed(v, 0) + " MPa against at least " + fixed(need, 0) + " MPa for " + cls);
+  }
+
+  function livePosition() {
+    if (notNumber("position", "easting") || notNumber("position", "northing")) return;
+    const e = num("easting"), n = num("northing"), d = data.design || {};
+    if (!isNum(e) || !isNum(n)) return say("position", "", "");
+    const dx = (e - d.easting) * 1000, dy = (n - d.northing) * 1000;
+    const dev = Math.hypot(dx, dy), lim = data.limits.position_tolerance_mm;
+    const sign = (x) => (x >= 0 ? "+" : "−") + fixed(Math.abs(x), 0);
+    result("position", dev <= lim + 1e-9, fixed(dev, 0) + " mm off design (east " + sign(dx) + ", north " +
+           sign(dy) + " mm) against " + fixed(lim, 0) + " mm");
+  }
+
+  function liveInclination() {
+    if (notNumber("inclination", "inclination")) return;
+    const v = num("inclination"), lim = data.limits.inclination_tolerance;
+    if (!isNum(v)) return say("inclination", "", "Limit 1 in " + fixed(1 / lim, 0));
+    const oneIn = v > 0 ? "1 in " + fixed(1 / v, 0) : "vertical";
+    result("inclination", v <= lim + 1e-12, oneIn + " against 1 in " + fixed(1 / lim, 0));
+  }
+
+  function liveCutoff() {
+    if (notNumber("cutoff", "cutoff_level")) return;
+    const v = num("cutoff_level"), d = (data.design || {}).cutoff_level, lim = data.limits.cutoff_tolerance_mm;
+    if (!isNum(v) || !isNum(d)) return say("cutoff", "", "");
+    const off = (v - d) * 1000;
+    result("cutoff", Math.abs(off) <= lim + 1e-6, fixed(Math.abs(off), 0) + " mm " + (off >= 0 ? "above" : "below") +
+           " design, within ±" + fixed(lim, 0) + " mm allowed");
+  }
+
+  function liveDiameter() {
+    if (notNumber("diameter", "diameter_mm")) return;
+    const v = num("diameter_mm"), d = (data.design || {}).diameter_mm;
+    const least = d - data.limits.diameter_tolerance_mm;
+    if (!isNum(v) || !isNum(d)) return say("diameter", "", "");
+    result("diameter", v >= least - 1e-6, fixed(v, 0) + " mm against at least " + fixed(least, 0) + " mm");
+  }
+
+  function liveVolume() {
+    if (notNumber("volume", "concrete_volume_m3")) return;
+    const vol = num("concrete_volume_m3"), platform = num("platform_level"), depth = num("measured_depth");
+    const top = isNum(num("casting_level")) ? num("casting_level") : num("cutoff_level");
+    const area = (data.design || {}).area_m2;
+    if (!isNum(vol)) return say("volume", "", "");
+    if (!isNum(platform) || !isNum(depth) || !isNum(top) || !isNum(area)) {
+      return say("volume", "", "Type the platform level, depth and final concrete level (or cut-off) for the ratio.");
+    }
+    const length = top - (platform - depth);
+    if (length <= 0) return say("volume", "bad", WORD.bad + "the concrete level is not above the toe");
+    const theo = area * length, ratio = vol / theo;
+    const lo = data.limits.volume_ratio_min, hi = data.limits.volume_ratio_max;
+    result("volume", ratio >= lo - 1e-9 && ratio <= hi + 1e-9, "ratio " + fixed(ratio, 2) + " (" + fixed(vol, 2) +
+           " m³ against " + fixed(theo, 2) + " m³ theoretical), within " + fixed(lo, 2) + " to " + fixed(hi, 2) + " wanted");
+  }
+
+  function minutesBetween(a, b) {
+    if (!a || !b) return null;
+    const ta = new Date(a).getTime(), tb = new Date(b).getTime();
+    if (isNaN(ta) || isNaN(tb)) return null;
+    return (tb - ta) / 60000;
+  }
+
+  function liveDeliveries() {
+    const lim = data.limits.batch_to_discharge_min;
+    byId("delivery-rows").querySelectorAll("tr").forEach((tr) => {
+      const out = tr.querySelector("output");
+      const m = minutesBetween(tr.querySelector('[data-key="batched_at"]').value,
+                               tr.querySelector('[data-key="discharged_at"]').value);
+      if (m === null) { out.textContent = ""; out.className = "live"; return; }
+      const ok = m >= 0 && m <= lim + 1e-9;
+      out.className = "live " + (ok ? "ok" : "short");
+      out.dataset.state = ok ? "ok" : "short";
+      out.textContent = (ok ? "OK: " : "SHORT: ") + (m < 0 ? "discharged before batching" :
+        fixed(m, 0) + " min (at most " + fixed(lim, 0) + ")");
+    });
+  }
+
+  function live() {
+    liveToe(); liveDiameter(); liveDebris(); livePosition(); liveCutoff(); liveInclination();
+    liveCover(); liveGrade(); liveVolume(); liveDeliveries();
+  }
+
+  // --- Repeating rows: strata met and concrete deliveries ---------------------------------------
+  function cell(tr, html) { const td = document.createElement("td"); td.append(html); tr.append(td); return td; }
+  function input(key, kind, value, labelText, attrs) {
+    const el = document.createElement("input");
+    el.dataset.key = key;
+    el.dataset.kind = kind;
+    el.setAttribute("aria-label", labelText);
+    if (kind === "number") { el.type = "text"; el.inputMode = "decimal"; el.autocomplete = "off"; }
+    else if (kind === "time") { el.type = "datetime-local"; el.step = "60"; }
+    else el.type = "text";
+    Object.entries(attrs || {}).forEach(([k, v]) => el.setAttribute(k, v));
+    setValue(el, value);
+    return el;
+  }
+  function select(key, choices, value, labelText, kind) {
+    const el = document.createElement("select");
+    el.dataset.key = key;
+    el.dataset.kind = kind || "choice";
+    el.setAttribute("aria-label", labelText);
+    choices.forEach(([v, t]) => {
+      const o = document.createElement("option");
+      o.value = v; o.textContent = t;
+      el.append(o);
+    });
+    el.value = value === undefined || value === null ? "" : String(value);
+    return el;
+  }
+  function removeButton(tr) {
+    const b = document.createElement("button");
+    b.type = "button"; b.className = "btn small"; b.textContent = "Remove";
+    b.addEventListener("click", () => { tr.remove(); live(); });
+    return b;
+  }
+
+  function addStratum(s) {
+    s = s || {};
+    const n = byId("strata-rows").children.length;
+    const tr = document.createElement("tr");
+    tr.dataset.index = n;
+    cell(tr, input("from_depth", "number", s.from_depth, "Stratum " + (n + 1) + " from depth (m)"));
+    cell(tr, input("to_depth", "number", s.to_depth, "Stratum " + (n + 1) + " to depth (m)"));
+    cell(tr, select("material", options.materials.map((m) => [m, m]), s.material || "cohesive",
+                    "Stratum " + (n + 1) + " material"));
+    cell(tr, input("description", "text", s.description, "Stratum " + (n + 1) + " description", { maxlength: "500" }));
+    const layers = [["", "nearest"]].concat((data.layers || []).map((l) =>
+      [String(l.index), l.index + ": " + l.material + " " + fixed(l.top, 1) + " to " + fixed(l.bottom, 1)]));
+    cell(tr, select("layer_index", layers, s.layer_index, "Stratum " + (n + 1) + " ground-model layer", "int"));
+    cell(tr, removeButton(tr));
+    byId("strata-rows").append(tr);
+  }
+
+  function addDelivery(d) {
+    d = d || {};
+    const n = byId("delivery-rows").children.length;
+    const tr = document.createElement("tr");
+    cell(tr, input("docket", "text", d.docket, "Delivery " + (n + 1) + " docket", { maxlength: "50" }));
+    cell(tr, input("volume_m3", "number", d.volume_m3, "Delivery " + (n + 1) + " volume (m3)"));
+    cell(tr, input("batched_at", "time", d.batched_at, "Delivery " + (n + 1) + " batched at"));
+    cell(tr, input("discharged_at", "time", d.discharged_at, "Delivery " + (n + 1) + " discharged at"));
+    cell(tr, input("slump_mm", "number", d.slump_mm, "Delivery " + (n + 1) + " slump (mm)"));
+    const out = document.createElement("output");
+    out.className = "live";
+    out.setAttribute("aria-live", "polite");
+    cell(tr, out);
+    cell(tr, removeButton(tr));
+    byId("delivery-rows").append(tr);
+  }
+
+  // --- Saving --------------------------------------------------------------------------------
+  function csrf() {
+    const m = document.querySelector('meta[name="csrf-token"]');
+    return m ? m.content : "";
+  }
+  function newId() {
+    if (window.ToelineOutbox && window.ToelineOutbox.newId) return window.ToelineOutbox.newId();
+    if (window.crypto && crypto.randomUUID) return crypto.randomUUID();
+    const b = crypto.getRandomValues(new Uint8Array(16));
+    b[6] = (b[6] & 0x0f) | 0x40; b[8] = (b[8] & 0x3f) | 0x80;
+    const h = Array.from(b, (x) => x.toString(16).padStart(2, "0")).join("");
+    return h.slice(0, 8) + "-" + h.slice(8, 12) + "-" + h.slice(12, 16) + "-" + h.slice(16, 20) + "-" + h.slice(20);
+  }
+  function status(message, state) {
+    const el = byId("save-status");
+    if (!el) return;
+    el.textContent = message;
+    el.className = state || "";
+  }
+
+  function clearErrors() {
+    document.querySelectorAll(".field-error").forEach((el) => { if (el.id !== "photo-error") el.textContent = ""; });
+    document.querySelectorAll(".invalid").forEach((el) => el.classList.remove("invalid"));
+  }
+
+  // 422: put each message beside its field; "deliveries[1].batched_at" finds the row input.
+  function showErrors(errors) {
+    clearErrors();
+    const rest = [];
+    Object.entries(errors || {}).forEach(([key, message]) => {
+      const m = /^(strata|deliveries)\[(\d+)\]\.?(\w+)?$/.exec(key);
+      let target = null, slot = null;
+      if (m) {
+        const tr = byId(m[1] === "strata" ? "strata-rows" : "delivery-rows").children[Number(m[2])];
+        target = tr && m[3] ? tr.querySelector('[data-key="' + m[3] + '"]') : null;
+        slot = document.querySelector('[data-error-for="' + m[1] + '"]');
+      } else {
+        target = document.querySelector('[data-path="' + key + '"]');
+        slot = document.querySelector('[data-error-for="' + key + '"]');
+      }
+      if (target) target.classList.add("invalid");
+      const line = key + ": " + message;
+      if (slot) slot.textContent = slot.textContent ? slot.textContent + " · " + line : line;
+      else rest.push(line);
+    });
+    status("Not saved: " + Object.keys(errors || {}).length + " field(s) to correct. " + rest.join(" · "), "short");
+    const first = document.querySelector(".invalid");
+    if (first) first.focus();
+  }
+
+  async function putDirect(payload) {
+    const response = await fetch(data.urls.record, {
+      method: "PUT", credentials: "same-origin",
+      headers: { "Content-Type": "application/json", "X-CSRFToken": csrf() },
+      body: JSON.stringify(Object.assign({ client_id: newId() }, payload)),
+    });
+    let body = null;
+    try { body = await response.json(); } catch (err) { body = null; }
+    return { ok: response.ok, queued: false, status: response.status, body: body };
+  }
+
+  async function save(event) {
+    event.preventDefault();
+    const button = byId("save");
+    const record = gather();
+    record.progress = byId("f-progress").value;
+    const payload = { base_version: data.version || 0, record: record };
+    button.disabled = true;
+    status("Saving…");
+    try {
+      const outbox = window.ToelineOutbox;
+      const answer = outbox ? await outbox.saveRecord(data.project_id, data.mark, payload) : await putDirect(payload);
+      handleAnswer(answer, record);
+    } catch (err) {
+      status("Not saved: " + (err && err.message ? err.message : err), "short");
+    } finally {
+      button.disabled = false;
+    }
+  }
+
+  function handleAnswer(answer, record) {
+    if (answer.queued && answer.conflict) {
+      status("Kept on this tablet: the record changed on the server meanwhile. Open the outbox to compare and choose.", "short");
+      return;
+    }
+    if (answer.queued) {
+      data.record = record;
+      status("Saved on this tablet; it will be sent and checked when the signal returns.", "waiting");
+      return;
+    }
+    const body = answer.body || {};
+    if (answer.ok) {
+      clearErrors();
+      data.version = body.version;
+      data.record = record;
+      data.progress = record.progress;
+      data.result = body;
+      byId("version-now").textContent = body.version;
+      byId("progress-now").textContent = record.progress;
+      status("Saved as version " + body.version + ".", "ok");
+      showResult(body);
+      byId("result").scrollIntoView({ block: "start" });
+    } else if (answer.status === 422 && body.errors) {
+      showErrors(body.errors);
+    } else if (answer.status === 409) {
+      status("Not saved: " + (body.message || "the record changed on the server") +
+             ". Reload the page to see the newest version.", "short");
+    } else if (answer.status === 401) {
+      status("Not saved: your login has expired. Log in again.", "short");
+    } else {
+      status("Not saved: " + (body.error || ("the server answered " + answer.status)), "short");
+    }
+  }
+
+  // --- The result: verdict and every check, short first ------------------------------------------
+  function showNumber(x, unit) {
+    if (!isNum(x)) return "–";
+    const a = Math.abs(x);
+    const dp = a >= 100 ? 0 : a >= 10 ? 1 : a >= 1 ? 2 : 3;
+    return (a >= 1000 ? grouped(x) : x.toFixed(dp)) + (unit ? " " + unit : "");
+  }
+
+  function showResult(body) {
+    const verdict = byId("verdict");
+    const checks = body.checks || [];
+    const short = checks.filter((c) => c.ok === false);
+    const open = checks.filter((c) => c.ok === null);
+    const needs = body.verdict === "needs engineer";
+    verdict.className = "verdict " + (needs ? "needs" : "meets");
+    verdict.dataset.verdict = body.verdict;
+    verdict.textContent = "";
+    const strong = document.createElement("strong");
+    strong.textContent = needs ? "NEEDS ENGINEER" : "MEETS DESIGN";
+    verdict.append(strong, document.createTextNode(
+      " — verdict: " + body.verdict + " (version " + body.version + "). " +
+      (short.length ? short.length + " short: " + short.map((c) => c.code).join(", ") + ". " : "") +
+      (open.length ? open.length + " not checked yet. " : "") +
+      (needs ? "The engineer will review this pile." : "Every check is ok.")));
+    const tbody = byId("checks-rows");
+    tbody.textContent = "";
+    checks.forEach((c) => {
+      const tr = document.createElement("tr");
+      const state = c.ok === false ? "short" : c.ok === true ? "ok" : "none";
+      tr.className = "check " + state;
+      tr.dataset.code = c.code;
+      const td = (label, content, cls) => {
+        const el = document.createElement("td");
+        el.dataset.label = label;
+        if (cls) el.className = cls;
+        if (content instanceof Node) el.append(content); else el.textContent = content;
+        tr.append(el);
+      };
+      td("Check", c.code);
+      const badge = document.createElement("span");
+      badge.className = "status " + state;
+      badge.textContent = c.ok === false ? "short" : c.ok === true ? "ok" : "not checked";
+      td("Result", badge);
+      td("Value", showNumber(c.value, c.unit), "num");
+      td("Limit", showNumber(c.limit, c.unit), "num");
+      td("Why", c.reason);
+      tbody.append(tr);
+    });
+    const notes = byId("result-notes");
+    notes.textContent = "";
+    (body.notes || []).forEach((n) => { const li = document.createElement("li"); li.textContent = n; notes.append(li); });
+    const borrowed = byId("borrowed");
+    borrowed.textContent = (body.borrowed || []).length
+      ? "Used by the recheck: " + body.borrowed.map((b) => b.from_depth + "–" + b.to_depth + " m " + b.material +
+          ": " + b.reason).join("; ") : "";
+  }
+
+  // --- Photos --------------------------------------------------------------------------------
+  function addThumb(src, kind, caption, note) {
+    const li = document.createElement("li");
+    li.className = "photo";
+    const img = document.createElement("img");
+    img.src = src;
+    img.alt = kind + ": " + caption;
+    const span = document.createElement("span");
+    span.className = "photo-cap";
+    const b = document.createElement("b");
+    b.textContent = kind;
+    span.append(b, document.createTextNode(" " + caption + (note ? " (" + note + ")" : "")));
+    li.append(img, span);
+    byId("photo-list").prepend(li);
+    return li;
+  }
+
+  async function uploadPhoto(event) {
+    event.preventDefault();
+    const file = byId("photo-file").files[0];
+    const err = byId("photo-error");
+    err.textContent = "";
+    if (!file) { err.textContent = "Choose a photo first."; return; }
+    const kind = byId("photo-kind").value, caption = byId("photo-caption").value.trim();
+    const button = byId("photo-upload");
+    button.disabled = true;
+    try {
+      let answer;
+      if (window.ToelineOutbox) {
+        answer = await window.ToelineOutbox.savePhoto(data.project_id, data.mark, file, { kind: kind, caption: caption });
+      } else {
+        const fd = new FormData();
+        fd.append("file", file);
+        fd.append("client_id", newId());
+        fd.append("kind", kind);
+        fd.append("caption", caption);
+        const r = await fetch(data.urls.photos, { method: "POST", credentials: "same-origin",
+                                                  headers: { "X-CSRFToken": csrf() }, body: fd });
+        let body = null;
+        try { body = await r.json(); } catch (e) { body = null; }
+        answer = { ok: r.ok, status: r.status, body: body, queued: false };
+      }
+      if (answer.queued) {
+        addThumb(URL.createObjectURL(file), kind, caption, "waiting to be sent");
+      } else if (answer.ok) {
+        addThumb(answer.body.thumb_url, kind, caption, "");
+        byId("photo-file").value = "";
+        byId("photo-caption").value = "";
+      } else {
+        const body = answer.body || {};
+        err.textContent = "Photo not added: " + (body.errors ? Object.values(body.errors).join("; ") : (body.error || answer.status));
+      }
+    } catch (e) {
+      err.textContent = "Photo not added: " + (e && e.message ? e.message : e);
+    } finally {
+      button.disabled = false;
+    }
+  }
+
+  // --- Start -----------------------------------------------------------------------------------
+  document.addEventListener("input", (event) => { if (event.target.closest("#rig-form, .save-bar, #sec-notes")) live(); });
+  document.addEventListener("change", (event) => { if (event.target.closest("#rig-form")) live(); });
+  document.querySelectorAll("[data-now]").forEach((b) => b.addEventListener("click", () => {
+    const el = byId(b.dataset.now);
+    el.value = toLocalInput(new Date().toISOString());
+    live();
+  }));
+  byId("add-stratum").addEventListener("click", () => { addStratum(); live(); });
+  byId("add-delivery").addEventListener("click", () => { addDelivery(); live(); });
+  if (byId("save")) form.addEventListener("submit", save);
+  const photoForm = byId("photo-form");
+  if (photoForm) photoForm.addEventListener("submit", uploadPhoto);
+
+  fill();
+
+  // The cached page of another pile (offline), or no signal: take the pile from the bundle.
+  const urlMark = decodeURIComponent((/\/rig\/([^/]+)\/?$/.exec(location.pathname) || [])[1] || "");
+  async function fromBundle() {
+    const outbox = window.ToelineOutbox;
+    if (!outbox || !outbox.pileOffline) return;
+    try {
+      await outbox.ready;
+      const offline = await outbox.pileOffline(data.project_id, urlMark || data.mark);
+      if (offline) {
+        data = Object.assign({}, data, offline, { urls: data.urls, can_record: data.can_record });
+        if (urlMark && urlMark !== data.mark) data.mark = urlMark;
+        fill();
+      }
+    } catch (err) { /* keep the page as the server sent it */ }
+  }
+  if ((urlMark && urlMark !== data.mark) || navigator.onLine === false) fromBundle();
+
+  window.ToelineRig = { data: () => data, fill: fill, live: live, gather: gather, showResult: showResult };
+})();

@@ -1,0 +1,169 @@
+"""At the rig in headless Chromium (issue 5): an inspector opens a planned pile, types a
+measured depth that stops short and sees how much more is needed before saving, saves, sees
+"needs engineer" with axial_compression short, adds a photo and sees its thumbnail.
+
+The site is invented test data: a clay-over-sand ground model and one bored pile whose design
+toe comes from the project's own capacity curve. Screenshots go to tests/artifacts/.
+"""
+
+from __future__ import annotations
+
+import io
+import re
+
+import pytest
+from PIL import Image, ImageDraw
+from playwright.sync_api import expect
+
+from design_core.axial import capacity_curve, required_toe_level
+from fieldapp import db
+from fieldapp.queries import ground, piles, projects
+
+pytestmark = pytest.mark.browser
+
+PASSWORD = "correct horse 42"  # tests/conftest.py PASSWORD
+LAYERS = [
+    dict(top_level_m=100.0, bottom_level_m=99.0, material="ignore", unit_weight_kn_m3=18.0),
+    dict(top_level_m=99.0, bottom_level_m=80.0, material="cohesive", unit_weight_kn_m3=19.0,
+         cu_kpa=60.0, cu_bottom_kpa=150.0),
+    dict(top_level_m=80.0, bottom_level_m=70.0, material="cohesionless", unit_weight_kn_m3=20.0,
+         phi_deg=34.0),
+]
+LOAD_KN = 1850.0
+
+
+@pytest.fixture
+def rig_site(app, people, live_server):
+    """One planned 900 mm pile R1 on project 'own'; the level its load needs (m)."""
+    with app.app_context():
+        conn = db.get_db()
+        with db.write(conn):
+            rules = projects.current_rules(conn, people["own"]).rules
+            gm = ground.save_model(conn, people["own"], "clay over sand", 98.0, LAYERS)
+            model = ground.load_ground_model(conn, gm)
+            curve = capacity_curve(model, 0.9, 99.0, [98.9 - 0.05 * k for k in range(578)], "bored", rules)
+            need = required_toe_level(curve, LOAD_KN)
+            piles.save_pile(conn, people["own"], {
+                "mark": "R1", "cap_id": None, "ground_model_id": gm, "pile_type": "bored",
+                "easting_m": 250.0, "northing_m": 400.0, "cutoff_level_m": 99.0,
+                "toe_level_m": round(need - 0.25, 2), "diameter_mm": 900.0, "compression_kn": LOAD_KN,
+                "tension_kn": 0.0, "shear_kn": 20.0, "moment_knm": 0.0, "n_bars": 12, "bar_mm": 25.0,
+                "cage_length_m": 10.0, "fc_mpa": 40.0, "fy_mpa": 500.0, "exposure_class": "XC2",
+                "cover_mm": 75.0, "head": "free"})
+    return dict(people, base=live_server, need=need)
+
+
+def photo_bytes() -> bytes:
+    """A drawn stand-in for a base photo (not a real photo)."""
+    image = Image.new("RGB", (800, 600), (90, 70, 50))
+    ImageDraw.Draw(image).ellipse((200, 100, 600, 500), fill=(150, 140, 120), outline=(20, 20, 20), width=8)
+    out = io.BytesIO()
+    image.save(out, "JPEG", quality=85)
+    return out.getvalue()
+
+
+def login(page, base, email):
+    page.goto(base + "/login")
+    page.fill("#email", email)
+    page.fill("#password", PASSWORD)
+    page.click("button[type=submit]")
+    page.wait_for_load_state()
+    assert "/login" not in page.url
+
+
+def test_inspector_records_a_short_pile_and_adds_a_photo(page, rig_site, artifacts):
+    base, pid = rig_site["base"], rig_site["own"]
+    login(page, base, rig_site["inspector"])
+
+    # Pick the planned pile by its mark.
+    page.goto(f"{base}/projects/{pid}/rig")
+    page.fill("#q", "r1")
+    page.click("form[role=search] button[type=submit]")
+    page.click("text=Open R1")
+    expect(page.locator("h1")).to_have_text("Pile R1")
+    expect(page.locator("#progress-now")).to_have_text("planned")
+
+    # Design values beside the fields; the numeric keypad on number fields.
+    expect(page.locator("[data-design=diameter_mm]").first).to_have_text("900")
+    assert page.get_attribute("#f-measured_depth", "inputmode") == "decimal"
+
+    # Stop 0.60 m above the level the load needs (decimal comma, as a tablet keypad may give).
+    depth = round(100.0 - (rig_site["need"] + 0.60), 2)
+    page.fill("#f-platform_level", "100,00")
+    page.fill("#f-measured_depth", f"{depth:.2f}".replace(".", ","))
+    toe_line = page.locator("#live-toe")
+    expect(toe_line).to_have_attribute("data-state", "short")
+    expect(toe_line).to_contain_text(re.compile(r"0\.6\d m more needed for 1,850 kN"))
+    expect(page.locator("#verdict")).to_contain_text("Not checked yet")  # nothing saved yet
+    page.locator("#sec-boring").scroll_into_view_if_needed()
+    page.screenshot(path=str(artifacts / "rig-live-1280x800.png"))
+
+    # A figure deep enough turns the line to "to spare", then back to the short one to save.
+    page.fill("#f-measured_depth", f"{depth + 1.0:.2f}")
+    expect(toe_line).to_contain_text(re.compile(r"reaches design with 0\.[34]\d m to spare"))
+    page.fill("#f-measured_depth", f"{depth:.2f}")
+    page.fill("#f-debris_mm", "60")
+    expect(page.locator("#live-debris")).to_contain_text("SHORT: 60 mm against at most 38 mm")
+
+    page.select_option("#f-progress", "boring")
+    page.click("#save")
+    verdict = page.locator("#verdict")
+    expect(verdict).to_have_attribute("data-verdict", "needs engineer")
+    expect(verdict).to_contain_text("NEEDS ENGINEER")
+    expect(verdict).to_contain_text("axial_compression")
+    axial = page.locator("tr[data-code=axial_compression]")
+    expect(axial).to_have_class(re.compile(r"\bshort\b"))
+    expect(axial.locator(".status")).to_have_text("short")
+    first_row = page.locator("#checks-rows tr").first
+    expect(first_row).to_have_class(re.compile(r"\bshort\b"))  # short first
+    expect(page.locator("#result .caution-box")).to_be_visible()  # the caution with the verdict
+    expect(page.locator("#version-now")).to_have_text("1")
+    page.screenshot(path=str(artifacts / "rig-1280x800.png"))
+
+    # Touch targets: every visible control of the record is at least 44 px tall.
+    small = page.evaluate("""() => Array.from(document.querySelectorAll(
+        '#rig-form input, #rig-form select, #rig-form button, .save-bar button, .save-bar select, #photo-form button'))
+        .filter((el) => el.offsetParent !== null)
+        .map((el) => [el.id || el.name || el.textContent, el.getBoundingClientRect().height])
+        .filter(([, h]) => h < 44)""")
+    assert small == []
+
+    # A photo: kind, caption, file; its thumbnail appears.
+    page.select_option("#photo-kind", "base")
+    page.fill("#photo-caption", "base after cleaning")
+    page.set_input_files("#photo-file", files=[{"name": "base.jpg", "mimeType": "image/jpeg",
+                                                 "buffer": photo_bytes()}])
+    page.click("#photo-upload")
+    thumb = page.locator("#photo-list img").first
+    expect(thumb).to_have_attribute("src", re.compile(r"/photos/\d+/thumb$"))
+    for _ in range(50):
+        if page.evaluate("() => { const i = document.querySelector('#photo-list img'); "
+                         "return i.complete && i.naturalWidth; }"):
+            break
+        page.wait_for_timeout(100)
+    assert page.evaluate("() => document.querySelector('#photo-list img').naturalWidth") == 320
+    expect(page.locator("#photo-error")).to_have_text("")
+
+    # After a reload the saved record and the photo are still there.
+    page.reload()
+    expect(page.locator("#f-measured_depth")).to_have_value(re.compile(rf"^{depth:.2f}".replace(".", r"\.")))
+    expect(page.locator("#verdict")).to_have_attribute("data-verdict", "needs engineer")
+    expect(page.locator("#photo-list img")).to_have_count(1)
+
+
+def test_rig_page_fits_a_phone(page, rig_site, artifacts):
+    login(page, rig_site["base"], rig_site["inspector"])
+    page.set_viewport_size({"width": 390, "height": 844})
+    page.goto(f"{rig_site['base']}/projects/{rig_site['own']}/rig/R1")
+    page.fill("#f-cover_mm", "60")
+    expect(page.locator("#live-cover")).to_contain_text("SHORT: 60 mm against at least 75 mm for XC2")
+    overflow = page.evaluate("() => document.documentElement.scrollWidth - window.innerWidth")
+    assert overflow <= 0
+    page.screenshot(path=str(artifacts / "rig-phone.png"), full_page=True)
+
+
+def test_viewer_sees_the_record_but_cannot_save(page, rig_site):
+    login(page, rig_site["base"], rig_site["viewer"])
+    page.goto(f"{rig_site['base']}/projects/{rig_site['own']}/rig/R1")
+    expect(page.locator("#save")).to_have_count(0)
+    assert page.is_disabled("#f-measured_depth")
