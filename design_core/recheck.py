@@ -84,6 +84,7 @@ from design_core.section import InteractionCurve, section_interaction
 
 CURVE_STEP_M = 0.25        # spacing of the drawn capacity curve
 CURVE_MAX_POINTS = 400
+CURVE_BELOW_TOE_M = 5.0    # the drawn curve runs this far below the deepest toe
 WINKLER_NODES = 100        # about 0.4 % from Hetenyi on a 30 m pile (tests/validation)
 LEVEL_TOL_M = 1e-6
 
@@ -160,6 +161,7 @@ class _Pile:
     notes: list = field(default_factory=list)
     ground_error: str | None = None
     _gkey: Any = None
+    section_memo: Any = None
 
     @property
     def gkey(self):
@@ -238,11 +240,14 @@ def _curve_key(pile: _Pile):
 
 
 def _curve_grid(ground: GroundModel, top: float, toes: Iterable[float]) -> np.ndarray:
+    """Toe levels of a drawn curve: every CURVE_STEP_M from just below the top down to
+    CURVE_BELOW_TOE_M below the deepest toe (or the bottom of the ground model), and the toes."""
     start = min(top, ground.top) - 0.1
     pts = [t for t in toes if ground.bottom - LEVEL_TOL_M <= t < min(top, ground.top)]
-    if start > ground.bottom:
-        n = int(min(CURVE_MAX_POINTS, max(2, math.ceil((start - ground.bottom) / CURVE_STEP_M) + 1)))
-        pts.extend(np.linspace(start, ground.bottom, n).tolist())
+    bottom = max(ground.bottom, min(pts) - CURVE_BELOW_TOE_M) if pts else ground.bottom
+    if start > bottom:
+        n = int(min(CURVE_MAX_POINTS, max(2, math.ceil((start - bottom) / CURVE_STEP_M) + 1)))
+        pts.extend(np.linspace(start, bottom, n).tolist())
     return np.unique(np.maximum(np.array(pts, dtype=float), ground.bottom))[::-1]
 
 
@@ -351,12 +356,16 @@ def _section(pile: _Pile, cache: _Cache | None) -> InteractionCurve:
     d = pile.design
     key = (round(pile.diameter, 6), round(pile.cover_mm, 3), d.n_bars, d.bar_mm,
            round(pile.fc_mpa, 3), d.fy_mpa)
+    if pile.section_memo is not None:
+        return pile.section_memo
     if cache is not None and key in cache.sections:
-        return cache.sections[key]
+        pile.section_memo = cache.sections[key]
+        return pile.section_memo
     curve = section_interaction(pile.diameter, pile.cover_mm, d.n_bars, d.bar_mm, pile.fc_mpa,
                                 d.fy_mpa)
     if cache is not None:
         cache.sections[key] = curve
+    pile.section_memo = curve
     return curve
 
 
@@ -593,6 +602,8 @@ def _check_lateral(pile: _Pile, cache, details) -> Check:
     text = (f"Working shear {shear:.0f} kN against Broms {broms.ultimate:.0f} kN / "
             f"{rules.broms_factor:g} = {allowed:.0f} kN ({broms.mode} pile) and head deflection "
             f"{defl_mm:.1f} mm against {limit_mm:g} mm ({soil}, {d.head} head)")
+    if section is not None and section.pure_bending <= 0.0:
+        text += "; the unreinforced section has no moment capacity without axial load"
     if util_h >= util_y:
         return Check(code, shear, allowed, "kN", util_h, ok, text)
     return Check(code, defl_mm, limit_mm, "mm", util_y, ok, text)
@@ -642,9 +653,10 @@ def _check_group(pile: _Pile, group: CapGroup | None, axial, details,
     details["group_marks"] = tuple(marks)
     share = float(shares[marks.index(d.mark)])
     surveyed = sum(1 for p in group.piles if p.asbuilt_xy is not None)
-    where = f"cap {group.mark}, {len(marks)} piles, {surveyed} surveyed"
+    where = f"cap {group.mark}, {len(marks)} pile{'s' if len(marks) > 1 else ''}, {surveyed} surveyed"
     if spill > 0.05:
-        where += f"; {spill:.0f} kNm across the line of piles left to the cap's tie beams"
+        where += (f"; {spill:.0f} kNm of cap moment not shared by one pile" if len(marks) == 1
+                  else f"; {spill:.0f} kNm across the line of piles left to the cap's tie beams")
     details["across_moment"] = spill
     if isinstance(axial, _NotChecked):
         return Check.not_checked(code, "kN", f"Share {share:.0f} kN ({where}) not set against a "
