@@ -384,3 +384,54 @@ def pile_audit(conn: sqlite3.Connection, project_id: int, mark: str, limit: int 
         "AND subject = ? ORDER BY seq DESC LIMIT ?", (project_id, mark, limit)).fetchall()
     return [{"seq": r["seq"], "at": r["at"], "actor": r["actor"], "action": r["action"],
              "payload": json.loads(r["payload_json"]), "hash": r["hash"]} for r in rows]
+
+
+@dataclass(frozen=True)
+class NonConformance:
+    """A logged record version that needed the engineer (or was not simply accepted), with what
+    was decided about it."""
+
+    mark: str
+    version: int
+    verdict: str
+    short: tuple[str, ...]
+    not_checked: tuple[str, ...]
+    recorded_at: str
+    disposition: str | None
+    reasons: str
+    signer: str | None
+    signed_at: str | None
+    remedial_of_mark: str | None
+    remedial_of_version: int | None
+
+
+def nonconformances(conn: sqlite3.Connection, project_id: int) -> list[NonConformance]:
+    """Every logged record version that needed the engineer, or whose sign-off was other than
+    a plain ``accepted``, in mark and version order."""
+    rows = conn.execute(
+        "SELECT p.mark, r.version, r.verdict, r.checks_json, r.created_at, s.disposition, s.reasons, "
+        "s.signed_at, COALESCE(NULLIF(u.name, ''), u.email) AS signer, rp.mark AS remedial_of_mark, "
+        "rs.version AS remedial_of_version "
+        "FROM pile_records r JOIN piles p ON p.id = r.pile_id "
+        "LEFT JOIN signoffs s ON s.pile_id = r.pile_id AND s.version = r.version "
+        "LEFT JOIN users u ON u.id = s.signed_by "
+        "LEFT JOIN signoffs rs ON rs.id = s.remedial_of LEFT JOIN piles rp ON rp.id = rs.pile_id "
+        "WHERE r.project_id = ? AND r.progress = 'logged' AND (r.verdict = 'needs engineer' "
+        "OR s.disposition IN ('accepted with conditions', 'remedial', 'rejected'))",
+        (project_id,)).fetchall()
+    out = []
+    for r in rows:
+        checks = json.loads(r["checks_json"])
+        out.append(NonConformance(
+            r["mark"], r["version"], r["verdict"], tuple(c["code"] for c in checks if c.get("ok") is False),
+            tuple(c["code"] for c in checks if c.get("ok") is None), r["created_at"], r["disposition"],
+            r["reasons"] or "", r["signer"], r["signed_at"], r["remedial_of_mark"], r["remedial_of_version"]))
+    out.sort(key=lambda n: (natural_key(n.mark), n.version))
+    return out
+
+
+def rules_versions_used(conn: sqlite3.Connection, project_id: int) -> list[int]:
+    """The rule set versions the project's current records were checked with."""
+    return [r[0] for r in conn.execute(
+        "SELECT DISTINCT r.rules_version FROM pile_records r JOIN piles p ON p.id = r.pile_id "
+        "AND p.current_version = r.version WHERE r.project_id = ? ORDER BY 1", (project_id,)).fetchall()]

@@ -152,7 +152,8 @@ def pile_sheet(conn: sqlite3.Connection, project_id: int, status: review_q.PileS
     return sheet
 
 
-def site_plan(statuses: list[review_q.PileStatus], currents: dict[int, records.RecordVersion]) -> drawings.Figure:
+def site_plan(statuses: list[review_q.PileStatus], currents: dict[int, records.RecordVersion],
+              width: float = 760, height: float = 520) -> drawings.Figure:
     """Every pile coloured by status, with deviation arrows (positions from the current records)."""
     plan = []
     for s in statuses:
@@ -162,4 +163,64 @@ def site_plan(statuses: list[review_q.PileStatus], currents: dict[int, records.R
             xy = (rec.record["easting"], rec.record["northing"])
         plan.append(drawings.PlanPile(s.mark, (s.easting_m, s.northing_m), xy, s.diameter_mm / 1000.0,
                                       status=s.status))
-    return drawings.site_plan_figure(plan)
+    return drawings.site_plan_figure(plan, width, height)
+
+
+@dataclass(frozen=True)
+class ScheduleRow:
+    """One line of the as-built schedule: design against as built, verdict, disposition, signer.
+
+    As-built values are those recorded (the toe is platform level less measured depth, as the
+    record defines it); the position deviation is the value of the ``position`` check.
+    """
+
+    mark: str
+    cap: str
+    progress: str
+    version: int
+    design_toe_m: float
+    asbuilt_toe_m: float | None
+    design_diameter_mm: float
+    asbuilt_diameter_mm: float | None
+    deviation_mm: float | None
+    design_cover_mm: float
+    asbuilt_cover_mm: float | None
+    verdict: str
+    worst_utilisation: float | None
+    disposition: str
+    signer: str
+    signed_at: str
+    status: str
+
+    CSV_HEADER = ("mark", "cap", "progress", "version", "design_toe_m", "asbuilt_toe_m",
+                  "design_diameter_mm", "asbuilt_diameter_mm", "deviation_mm", "design_cover_mm",
+                  "asbuilt_cover_mm", "verdict", "worst_utilisation", "disposition", "signer", "signed_at")
+
+    def values(self) -> tuple:
+        """The row's values in CSV_HEADER order."""
+        return tuple(getattr(self, name) for name in self.CSV_HEADER)
+
+
+def schedule_row(status: review_q.PileStatus, current: records.RecordVersion | None) -> ScheduleRow:
+    """The schedule line of one pile from its status and current record."""
+    rec = current.record if current else {}
+    toe = None
+    if rec.get("platform_level") is not None and rec.get("measured_depth") is not None:
+        toe = round(rec["platform_level"] - rec["measured_depth"], 3)
+    deviation = None
+    if current is not None:
+        position = next((c for c in current.checks if c.get("code") == "position"), None)
+        deviation = _finite(position.get("value")) if position else None
+    signed = status.signed
+    return ScheduleRow(
+        status.mark, status.cap or "", status.progress, status.current_version, status.toe_level_m, toe,
+        status.diameter_mm, rec.get("diameter_mm"), deviation, status.cover_mm, rec.get("cover_mm"),
+        (current.verdict if current else "not recorded"), status.worst_utilisation,
+        (status.disposition if signed else "unsigned") if current else "",
+        (status.signer or "") if signed else "", (status.signed_at or "") if signed else "", status.status)
+
+
+def schedule(conn: sqlite3.Connection, project_id: int) -> list[ScheduleRow]:
+    """The as-built schedule of every pile, in mark order."""
+    currents = records.current_for_project(conn, project_id)
+    return [schedule_row(s, currents.get(s.id)) for s in review_q.pile_statuses(conn, project_id)]

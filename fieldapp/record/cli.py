@@ -1,0 +1,45 @@
+"""``toeline record PROJECT_ID OUT.pdf``: build the certification record of a project."""
+
+from __future__ import annotations
+
+import time
+
+import click
+
+
+def register(main: click.Group) -> None:
+    """Add ``record`` to the ``toeline`` command group."""
+    from fieldapp.cli import _app, data_option
+
+    @main.command("record")
+    @data_option
+    @click.argument("project_id", type=int)
+    @click.argument("out", type=click.Path(dir_okay=False, writable=True))
+    @click.option("--quiet", is_flag=True, help="Print only the summary.")
+    @click.pass_context
+    def record(ctx, data_dir, project_id, out, quiet):
+        """Write the certification record (PDF) of PROJECT_ID to OUT."""
+        from fieldapp import db
+        from fieldapp.queries import projects
+        from fieldapp.record import pdf
+
+        app = _app(ctx, data_dir)
+        with app.app_context():
+            conn = db.get_db()
+            if projects.get(conn, project_id) is None:
+                raise click.ClickException(f"project {project_id} does not exist")
+            started = time.perf_counter()
+            step = [0]
+
+            def progress(done: int, total: int) -> None:
+                if quiet or total == 0:
+                    return
+                pct = 100 * done // total
+                if pct >= step[0] + 10 or done == total:
+                    step[0] = pct
+                    click.echo(f"  {done}/{total} piles ({pct} %)")
+
+            result = pdf.build(conn, project_id, out, photo_dir=app.config["PHOTO_DIR"], progress=progress)
+        click.echo(f"record of project {project_id}: {result.piles} piles, {result.pages} pages, "
+                   f"{time.perf_counter() - started:.1f} s -> {result.path}")
+        click.echo(f"audit head hash {result.head_hash} (chain {'intact' if result.chain_ok else 'BROKEN'})")
