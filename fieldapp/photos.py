@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import hashlib
 import io
+import math
 import os
 import sqlite3
 import tempfile
@@ -126,6 +127,17 @@ def exif_taken_at(image: Image.Image) -> str | None:
     return None
 
 
+_QUARTER_TURNS = (5, 6, 7, 8)  # EXIF orientations that swap width and height
+
+
+def _orientation(image: Image.Image) -> int:
+    """The EXIF orientation (1 to 8) that ``ImageOps.exif_transpose`` applies; 1 when none."""
+    try:
+        return int(image.getexif().get(ExifTags.Base.Orientation, 1))
+    except Exception:  # noqa: BLE001 - a broken EXIF block means no turn, as exif_transpose does
+        return 1
+
+
 def _open(data: bytes) -> Image.Image:
     try:
         with warnings.catch_warnings():
@@ -151,7 +163,11 @@ def _copy(data: bytes, size: int) -> tuple[bytes, tuple[int, int]]:
     """A JPEG at most ``size`` px on its long side, EXIF orientation applied."""
     image = _open(data)
     if image.format in ("JPEG", "MPO"):
-        image.draft("RGB", (size, size))  # decode at 1/2, 1/4 or 1/8 scale when that is enough
+        # Decode at 1/2, 1/4 or 1/8 scale when that is enough. draft() keeps a scale only when
+        # both sides stay at least the size asked for, so ask for the copy's own proportions:
+        # (size, size) made a 4000 x 3000 photo decode at full size for a 1600 px copy.
+        scale = size / max(image.size)
+        image.draft("RGB", (math.ceil(image.width * scale), math.ceil(image.height * scale)))
     image = ImageOps.exif_transpose(image)
     if image.mode not in ("RGB", "L"):
         background = Image.new("RGB", image.size, "white")
@@ -185,8 +201,9 @@ def ingest(data: bytes, photo_dir: str | Path) -> Ingested:
     except (OSError, SyntaxError, ValueError, Image.DecompressionBombError) as exc:
         raise PhotoRejected(f"the image is damaged or truncated ({exc})") from None
     taken_at = exif_taken_at(full)
-    oriented = ImageOps.exif_transpose(full)
-    width, height = oriented.size
+    width, height = full.size
+    if _orientation(full) in _QUARTER_TURNS:  # the size as viewed, without turning the pixels
+        width, height = height, width
     display, display_size = _copy(data, DISPLAY_PX)
     thumb, thumb_size = _copy(data, THUMB_PX)
 
