@@ -6,13 +6,15 @@ Run alone with ``python -m tests.perf --only web``. What it does:
    functions (``sitegen.build_site``), one inspector login per tablet;
 2. starts ``toeline serve`` (waitress, as in ``deploy/``) on 127.0.0.1 as a subprocess;
 3. a pool of 16 client threads, each a ``requests`` session signed in as its own inspector,
-   runs a mixed load for 30 s: 30 % record PUT (the server validates, rechecks and stores a new
+   runs a mixed load for 30 s, each tablet pausing 0.5 to 1.5 s (uniform; a person at a tablet,
+   as in locust's ``wait_time``) between requests: 30 % record PUT (the server validates, rechecks and stores a new
    version; each tablet writes only its own piles and keeps their versions, so no save is a
    conflict), 40 % pile list (``GET /api/v1/projects/<id>/piles``, all 2,000 piles), 30 % pile
    page (the rig page of one pile when the app has one, else its rig data
    ``GET /api/v1/projects/<id>/piles/<mark>``);
-4. then, with the same pool on the same server, 10 s of PUTs only and 10 s of ``/healthz``
-   only: ``put_vs_healthz`` is PUTs per second over /healthz requests per second.
+4. then, with the same pool on the same server and no pauses: 15 s of the same mix (the busy
+   figures: every tablet firing back to back, the server saturated), 10 s of PUTs only and 10 s
+   of ``/healthz`` only: ``put_vs_healthz`` is PUTs per second over /healthz requests per second.
 
 Every answer other than 200, every timeout and every exception counts in ``web_errors``.
 Loops are bounded by time and by count. Latencies are wall times seen by the client.
@@ -36,6 +38,8 @@ TABLETS = 16
 N_PILES = 2000
 MIX_S = 30.0
 SOLO_S = 10.0
+BUSY_S = 15.0
+PAUSE_S = (0.5, 1.5)
 MAX_REQUESTS_PER_TABLET = 50_000
 TIMEOUT_S = 30.0
 MIX = (("put", 0.3), ("list", 0.4), ("page", 0.3))
@@ -81,8 +85,10 @@ class Tablet:
         self.times: dict[str, list[float]] = {}
         self.errors: list[str] = []
 
-    def work(self, kinds: tuple[str, ...], seconds: float, start: threading.Event) -> None:
-        """Make requests of ``kinds`` (by MIX weights) for ``seconds`` once ``start`` is set."""
+    def work(self, kinds: tuple[str, ...], seconds: float, start: threading.Event,
+             pause: tuple[float, float] | None = None) -> None:
+        """Make requests of ``kinds`` (by MIX weights) for ``seconds`` once ``start`` is set,
+        waiting a uniform ``pause`` (s) after each when given."""
         self.times = {"put": [], "list": [], "page": [], "healthz": []}
         start.wait()
         until = time.perf_counter() + seconds
@@ -95,6 +101,8 @@ class Tablet:
                 getattr(self, "_" + kind)()
             except requests.RequestException as exc:
                 self.errors.append(f"{kind}: {type(exc).__name__}: {exc}")
+            if pause:
+                time.sleep(min(self.rng.uniform(*pause), max(0.0, until - time.perf_counter())))
 
     def _timed(self, kind: str, method: str, url: str, **kw) -> requests.Response:
         t0 = time.perf_counter()
@@ -130,10 +138,11 @@ class Tablet:
         self._timed("healthz", "GET", f"{self.base}/healthz")
 
 
-def _phase(tablets: list[Tablet], kinds: tuple[str, ...], seconds: float) -> tuple[dict, float]:
+def _phase(tablets: list[Tablet], kinds: tuple[str, ...], seconds: float,
+           pause: tuple[float, float] | None = None) -> tuple[dict, float]:
     """Run one phase with one thread per tablet; returns {kind: [ms, ...]} and the wall time."""
     start = threading.Event()
-    threads = [threading.Thread(target=t.work, args=(kinds, seconds, start), daemon=True) for t in tablets]
+    threads = [threading.Thread(target=t.work, args=(kinds, seconds, start, pause), daemon=True) for t in tablets]
     for th in threads:
         th.start()
     t0 = time.perf_counter()
@@ -156,7 +165,8 @@ def run() -> dict:
             # warm the server's imports and caches with one request of each kind (not timed)
             tablets[0].times = {"put": [], "list": [], "page": [], "healthz": []}
             tablets[0]._list(), tablets[0]._page(), tablets[0]._put()
-            mixed, mix_wall = _phase(tablets, ("put", "list", "page"), MIX_S)
+            mixed, mix_wall = _phase(tablets, ("put", "list", "page"), MIX_S, PAUSE_S)
+            busy, busy_wall = _phase(tablets, ("put", "list", "page"), BUSY_S)
             puts, put_wall = _phase(tablets, ("put",), SOLO_S)
             health, health_wall = _phase(tablets, ("healthz",), SOLO_S)
     finally:
@@ -170,6 +180,8 @@ def run() -> dict:
     put_rate, health_rate = len(put_solo) / put_wall, len(healthz) / health_wall
     print(f"  mixed {mix_wall:.1f} s: {len(put_mix)} PUT, {len(list_mix)} list, {len(page_mix)} page "
           f"({(len(put_mix) + len(list_mix) + len(page_mix)) / mix_wall:.1f} requests/s)")
+    print(f"  busy mix {busy_wall:.1f} s: {sum(len(v) for v in busy.values()) / busy_wall:.1f} requests/s, "
+          f"p95 PUT {_p95(busy['put']):.0f} ms, list {_p95(busy['list']):.0f} ms, page {_p95(busy['page']):.0f} ms")
     print(f"  PUT only: {put_rate:.1f}/s (p95 {_p95(put_solo):.0f} ms); /healthz only: {health_rate:.1f}/s")
     return {
         "put_p95_ms": _p95(put_mix),
@@ -178,6 +190,8 @@ def run() -> dict:
         "put_median_ms": statistics.median(put_mix) if put_mix else float("nan"),
         "list_median_ms": statistics.median(list_mix) if list_mix else float("nan"),
         "web_requests_per_s": (len(put_mix) + len(list_mix) + len(page_mix)) / mix_wall,
+        "put_p95_busy_ms": _p95(busy["put"]),
+        "list_p95_busy_ms": _p95(busy["list"]),
         "put_per_s": put_rate,
         "healthz_per_s": health_rate,
         "put_vs_healthz": put_rate / health_rate if health_rate else float("nan"),
