@@ -136,7 +136,8 @@ class PileForm(FlaskForm):
         """Field checks, then toe below cut-off and the other cross-field checks, then PileDesign."""
         ok = super().validate(extra_validators)
         if not self.ground_model_id.data:
-            self.ground_model_id.errors.append("Ground model is required: add one on the Ground screen first")
+            self.ground_model_id.errors.append(
+                "Ground model is required: choose one of the project's ground models (Ground screen)")
             ok = False
         if not ok:
             return False

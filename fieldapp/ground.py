@@ -62,7 +62,7 @@ def soil_column_svg(model: GroundModelRow, height_px: int = 420) -> Markup:
     span = max(top - bottom, 1e-6)
     pad_t, pad_b = 24, 16
     scale = (height_px - pad_t - pad_b) / span
-    col_x, col_w, width = 70, 90, 470
+    col_x, col_w, width = 150, 90, 600
 
     def y(level: float) -> float:
         return pad_t + (top - level) * scale
@@ -95,7 +95,7 @@ def soil_column_svg(model: GroundModelRow, height_px: int = 420) -> Markup:
                    f'{escape(layer_summary(layer))}</text>')
         if layer.description and h >= 30:
             out.append(f'<text x="{col_x + col_w + 10}" y="{mid + 21:.1f}" font-size="11" fill="#333">'
-                       f'{escape(layer.description[:48])}</text>')
+                       f'{escape(layer.description[:60])}</text>')
     for level in [top] + [layer.bottom_level_m for layer in model.layers]:
         yy = y(level)
         out.append(f'<line x1="{col_x - 6}" y1="{yy:.1f}" x2="{col_x}" y2="{yy:.1f}" stroke="#000" stroke-width="1.5"/>')
@@ -104,10 +104,10 @@ def soil_column_svg(model: GroundModelRow, height_px: int = 420) -> Markup:
     w = model.water_level_m
     if bottom <= w <= top:
         yw = y(w)
-        out.append(f'<line x1="{col_x - 4}" y1="{yw:.1f}" x2="{col_x + col_w + 4}" y2="{yw:.1f}" '
+        out.append(f'<line x1="4" y1="{yw:.1f}" x2="{col_x + col_w + 4}" y2="{yw:.1f}" '
                    'stroke="#0047b3" stroke-width="3"/>')
         out.append(f'<path d="M{col_x + col_w - 22} {yw - 11:.1f}h14l-7 10z" fill="#0047b3"/>')
-        out.append(f'<text x="{col_x}" y="{yw - 4:.1f}" font-size="12" font-weight="700" fill="#0047b3">'
+        out.append(f'<text x="4" y="{yw - 5:.1f}" font-size="12" font-weight="700" fill="#0047b3">'
                    f'GWL {_level(w)}</text>')
     else:
         where = "above the ground surface" if w > top else "below the model"
