@@ -123,13 +123,18 @@ Shape = Line | Polyline | Circle | Rect | Text
 
 @dataclass
 class Figure:
-    """A picture: size in drawing units (1 unit = 1 px on screen, 1 pt in the PDF), y down."""
+    """A picture: size in drawing units (1 unit = 1 px on screen, 1 pt in the PDF), y down.
+    The title is drawn at the top left."""
 
     width: float
     height: float
     title: str
     items: list = field(default_factory=list)
     note: str = ""
+
+    def __post_init__(self):
+        if self.title:
+            self.items.append(Text(4, 12, self.title, 10, "start", INK, True))
 
     def add(self, *shapes: Shape) -> None:
         """Add shapes in drawing order."""
@@ -262,8 +267,7 @@ def empty_figure(title: str, message: str, width: float = 360, height: float = 1
     """A placeholder that says why a picture cannot be drawn."""
     fig = Figure(width, height, title)
     fig.add(Rect(1, 1, width - 2, height - 2, MUTED, None, 0.8),
-            Text(width / 2, height / 2 - 4, title, 10, "middle", INK, True),
-            Text(width / 2, height / 2 + 12, message, 8.5, "middle", MUTED))
+            Text(width / 2, height / 2 + 6, message, 8.5, "middle", MUTED))
     return fig
 
 
@@ -291,7 +295,7 @@ def capacity_figure(curve: Any, design_load_kn: float | None, required_toe_m: fl
     pad = max(0.05 * (zhi - zlo), 0.25)
     zlo, zhi = zlo - pad, zhi + pad
     fmax = max(forces) * 1.08 or 1.0
-    plot = (46, 22, width - 12, height - 76)  # left, top, right, bottom
+    plot = (46, 36, width - 12, height - 76)  # left, top, right, bottom
     x = Axis(0.0, fmax, plot[0], plot[2])
     y = Axis(zhi, zlo, plot[1], plot[3])
     fig = Figure(width, height, title)
@@ -366,7 +370,7 @@ def interaction_figure(asbuilt: Any, design: Any | None, load_point: Any, phi: f
     nlo, nhi = min(ns), max(ns)
     npad = 0.05 * (nhi - nlo or 1.0)
     mmax = max(ms) * 1.1 or 1.0
-    plot = (52, 22, width - 12, height - 62)
+    plot = (52, 36, width - 12, height - 62)
     x = Axis(0.0, mmax, plot[0], plot[2])
     y = Axis(nhi + npad, nlo - npad, plot[1], plot[3])
     fig = Figure(width, height, title)

@@ -18,16 +18,26 @@ def register(main: click.Group) -> None:
     @click.option("--quiet", is_flag=True, help="Print only the summary.")
     @click.pass_context
     def record(ctx, data_dir, project_id, out, quiet):
-        """Write the certification record (PDF) of PROJECT_ID to OUT."""
+        """Write the certification record (PDF) of PROJECT_ID to OUT; an OUT ending in .csv or
+        .xlsx gets the as-built schedule instead."""
+        from pathlib import Path
+
         from fieldapp import db
         from fieldapp.queries import projects
-        from fieldapp.record import pdf
+        from fieldapp.record import export, pdf
 
+        suffix = Path(out).suffix.lower().lstrip(".")
+        if suffix not in ("pdf",) + export.FORMATS:
+            raise click.ClickException("OUT must end in .pdf (the record), .csv or .xlsx (the as-built schedule)")
         app = _app(ctx, data_dir)
         with app.app_context():
             conn = db.get_db()
             if projects.get(conn, project_id) is None:
                 raise click.ClickException(f"project {project_id} does not exist")
+            if suffix in export.FORMATS:
+                Path(out).write_bytes(export.asbuilt_schedule(conn, project_id, suffix))
+                click.echo(f"as-built schedule of project {project_id} -> {out}")
+                return
             started = time.perf_counter()
             step = [0]
 
