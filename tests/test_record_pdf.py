@@ -23,7 +23,13 @@ from fieldapp.queries import piles as piles_q
 from fieldapp.queries import projects
 from fieldapp.queries import review as review_q
 from fieldapp.record import data, export, pdf
-from tests.test_review import _sign, good_record, save, site  # noqa: F401  (site is a fixture)
+from tests.test_review import _sign, build_site, good_record, save
+
+
+@pytest.fixture
+def site(app, people):
+    """Cap C1 (P1 meets design, P2 too short, P3 not recorded) and single pile S1 (meets)."""
+    return build_site(app, people)
 
 
 def _words(text: str) -> str:

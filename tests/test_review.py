@@ -63,6 +63,11 @@ def save(app, project_id, mark, record, email="inspector@test.example"):
 @pytest.fixture
 def site(app, people):
     """Cap C1 (P1 meets design, P2 too short, P3 not recorded) and single pile S1 (meets)."""
+    return build_site(app, people)
+
+
+def build_site(app, people):
+    """The little site of ``site`` (also used by the record tests)."""
     pid = people["own"]
     with app.app_context():
         conn = db.get_db()
