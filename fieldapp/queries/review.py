@@ -232,10 +232,10 @@ class PileStatus:
             return {"remedial": "remedial", "rejected": "rejected"}.get(self.disposition or "", "signed")
         if self.current_version == 0:
             return "planned"
+        if self.progress != "logged" and not (self.worst_utilisation or 0.0) > 1.0:
+            return "recording"      # in progress and nothing short yet
         if self.verdict == "needs engineer":
             return "needs"
-        if self.progress != "logged":
-            return "recording"
         return "meets"
 
 
@@ -269,9 +269,12 @@ def pile_status(conn: sqlite3.Connection, project_id: int, mark: str) -> PileSta
 def needs_engineer(conn: sqlite3.Connection, project_id: int) -> list[PileStatus]:
     """Piles whose current version needs the engineer and is not signed, worst first (largest
     utilisation first, so every pile over 1 comes before those under it; not-checked ones with
-    no utilisation last), then by mark."""
+    no utilisation last), then by mark. A record still in progress (boring, concreted) is listed
+    only when something is already short (utilisation over 1): checks it cannot make yet are
+    not a finding."""
     rows = [s for s in pile_statuses(conn, project_id) if s.verdict == "needs engineer"
-            and s.current_version >= 1 and not s.signed]
+            and s.current_version >= 1 and not s.signed
+            and (s.progress == "logged" or (s.worst_utilisation or 0.0) > 1.0)]
     return sorted(rows, key=lambda s: (-(s.worst_utilisation if s.worst_utilisation is not None else -1.0),
                                        natural_key(s.mark)))
 
