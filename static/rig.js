@@ -88,7 +88,7 @@
     if (progress) progress.value = rec.progress && rec.progress !== "planned" ? rec.progress : "boring";
     document.querySelectorAll("[data-design]").forEach((el) => {
       const v = data.design ? data.design[el.dataset.design] : null;
-      el.textContent = v === null || v === undefined ? "–" : String(v);
+      el.textContent = v === null || v === undefined ? "–" : String(v) + (el.dataset.unit ? " " + el.dataset.unit : "");
     });
     byId("strata-rows").textContent = "";
     (rec.strata || []).forEach(addStratum);

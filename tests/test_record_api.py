@@ -375,3 +375,32 @@ def test_parse_number_reads_decimal_commas(text, value):
 def test_parse_number_refuses(text):
     with pytest.raises(ValueError):
         services.parse_number(text)
+
+
+# --- the demo's records ------------------------------------------------------------------
+
+def test_demo_records_go_through_the_save_path_with_one_of_each_shortfall(app):
+    from fieldapp import demo
+
+    with app.app_context():
+        pid = demo.build(app)  # build() ends with demo_records.add_records
+        conn = db.get_db()
+        all_piles = piles.list_piles(conn, pid)
+        recorded = [p for p in all_piles if p.current_version]
+        assert abs(len(recorded) - len(all_piles) / 2) <= 1
+        current = records.current_for_project(conn, pid)
+        shorts = {code for v in current.values() for c in v.checks if c["ok"] is False
+                  for code in [c["code"]]}
+        assert {"axial_compression", "toe_level", "base_debris", "durability_cover", "position",
+                "concrete_volume", "concrete_time"} <= shorts
+        meets = [v for v in current.values() if v.verdict == "meets design"]
+        assert len(meets) > len(current) / 2
+        saved = conn.execute("SELECT COUNT(*) FROM audit_log WHERE project_id = ? AND action = 'record saved'",
+                             (pid,)).fetchone()[0]
+        assert saved == len(recorded)
+        assert conn.execute("SELECT COUNT(*) FROM photos WHERE project_id = ?", (pid,)).fetchone()[0] >= len(recorded)
+        assert audit.verify_chain(conn, pid).ok
+        # the position fault is in a cap of several piles, whose shares it moves
+        moved = next(p for p in recorded if any(c["code"] == "position" and c["ok"] is False
+                                                for c in current[p.id].checks))
+        assert moved.cap_mark and len([p for p in all_piles if p.cap_mark == moved.cap_mark]) >= 4

@@ -84,7 +84,7 @@ def test_inspector_records_a_short_pile_and_adds_a_photo(page, rig_site, artifac
     expect(page.locator("#progress-now")).to_have_text("planned")
 
     # Design values beside the fields; the numeric keypad on number fields.
-    expect(page.locator("[data-design=diameter_mm]").first).to_have_text("900")
+    expect(page.locator("[data-design=diameter_mm]").first).to_have_text("900 mm")
     assert page.get_attribute("#f-measured_depth", "inputmode") == "decimal"
 
     # Stop 0.60 m above the level the load needs (decimal comma, as a tablet keypad may give).
