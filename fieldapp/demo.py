@@ -180,7 +180,7 @@ def schedule(ground_models: list, rules) -> list[tuple[dict, list[dict]]]:
 
 def build(app) -> int:
     """Create the demo users, project, ground models, caps and piles; returns the project id."""
-    from fieldapp import db
+    from fieldapp import db, demo_records
     from fieldapp.queries import audit, caps, ground, piles, projects, users
 
     conn = db.get_db()
@@ -207,4 +207,5 @@ def build(app) -> int:
                 count += 1
         audit.append(conn, pid, "demo", "demo project created", PROJECT["name"],
                      {"piles": count, "caps": len(CAPS), "ground_models": len(gm_ids)})
+    demo_records.add_records(app, pid)  # as-built records and photos through the save path
     return pid
