@@ -41,6 +41,18 @@ class Server:
         self.log = data.parent / f"server-{self.port}.log"
 
     @property
+    def ca_cert(self) -> Path:
+        """The site authority ``serve --https`` makes in the data folder (fieldapp.https)."""
+        from fieldapp.https import SiteCertificates
+
+        return SiteCertificates.in_folder(self.data).ca_cert
+
+    @property
+    def verify(self) -> str | bool:
+        """What ``requests`` should verify the server's certificate with."""
+        return str(self.ca_cert) if self.scheme == "https" else True
+
+    @property
     def url(self) -> str:
         return f"{self.scheme}://127.0.0.1:{self.port}"
 
@@ -54,8 +66,11 @@ class Server:
         while time.monotonic() < deadline:
             if self.proc.poll() is not None:
                 raise RuntimeError(f"server exited: {self.log.read_text()[-2000:]}")
+            if self.scheme == "https" and not self.ca_cert.exists():
+                time.sleep(0.05)
+                continue
             try:
-                if requests.get(self.url + "/healthz", timeout=1, verify=False).status_code == 200:
+                if requests.get(self.url + "/healthz", timeout=1, verify=self.verify).status_code == 200:
                     return
             except requests.RequestException:
                 time.sleep(0.02)
