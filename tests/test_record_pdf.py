@@ -137,6 +137,10 @@ def test_background_build_is_found_again_after_a_reload(app, client, auth, peopl
     body = _wait_done(other, pid, job.id)
     assert body["status"] == "done", body
     assert body["percent"] == 100 and body["done"] == body["total"] == 4
+    with app.app_context():
+        built = [e for e in audit.entries(db.get_db(), pid) if e["action"] == "record built"]
+    assert len(built) == 1 and body["head_hash"] in built[0]["payload_json"]   # the chain keeps it
+    assert built[0]["actor"] == "Viewer"
     pdf_bytes = other.get(body["download"])
     assert pdf_bytes.status_code == 200 and pdf_bytes.data.startswith(b"%PDF")
     assert client.get(f"/projects/{pid}/record").get_data(as_text=True).count("Download the record") >= 1

@@ -124,9 +124,12 @@ def test_signoff_role_matrix(app, client, auth, people, site, role, status):
         assert "sign-off" not in _actions(app, site["pid"])
 
 
-def test_not_signed_in_gets_401(client, site):
-    response = client.post(f"/api/v1/projects/{site['pid']}/piles/P1/signoff", json={})
-    assert response.status_code in (400, 401)  # CSRF refuses first when there is no session at all
+def test_not_signed_in_gets_401(client, auth, site):
+    response = client.post(f"/api/v1/projects/{site['pid']}/piles/P1/signoff",
+                           json={"disposition": "accepted", "reasons": "", "password": PASSWORD},
+                           headers={"X-CSRFToken": auth.token()})
+    assert response.status_code == 401
+    assert response.get_json() == {"error": "login required"}
 
 
 def test_wrong_password_is_403_and_nothing_signed(app, client, auth, people, site):

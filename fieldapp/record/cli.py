@@ -23,7 +23,7 @@ def register(main: click.Group) -> None:
         from pathlib import Path
 
         from fieldapp import db
-        from fieldapp.queries import projects
+        from fieldapp.queries import audit, projects
         from fieldapp.record import export, pdf
 
         suffix = Path(out).suffix.lower().lstrip(".")
@@ -50,6 +50,10 @@ def register(main: click.Group) -> None:
                     click.echo(f"  {done}/{total} piles ({pct} %)")
 
             result = pdf.build(conn, project_id, out, photo_dir=app.config["PHOTO_DIR"], progress=progress)
+            with db.write(conn):
+                audit.append(conn, project_id, "cli", "record built", "record",
+                             {"head_hash": result.head_hash, "pages": result.pages, "piles": result.piles,
+                              "file": Path(out).name})
         click.echo(f"record of project {project_id}: {result.piles} piles, {result.pages} pages, "
                    f"{time.perf_counter() - started:.1f} s -> {result.path}")
         click.echo(f"audit head hash {result.head_hash} (chain {'intact' if result.chain_ok else 'BROKEN'})")

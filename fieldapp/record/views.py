@@ -74,7 +74,7 @@ def _fresh(conn, project_id: int, job: review_q.RecordJob | None) -> review_q.Re
     return job
 
 
-def run_build(app, project_id: int, job_id: int) -> None:
+def run_build(app, project_id: int, job_id: int, actor: str = "record") -> None:
     """The worker: build the PDF on its own connection, storing progress as it goes."""
     from fieldapp.record import pdf
 
@@ -98,6 +98,10 @@ def run_build(app, project_id: int, job_id: int) -> None:
             review_q.update_job(conn, job_id, status="done", done=result.piles, total=result.piles, path=str(out),
                                 head_hash=result.head_hash, size_bytes=out.stat().st_size,
                                 finished_at=audit.now_iso())
+            # the chain itself remembers which head hash a record printed
+            audit.append(conn, project_id, actor, "record built", "record",
+                         {"job": job_id, "head_hash": result.head_hash, "pages": result.pages,
+                          "piles": result.piles})
     except Exception as exc:  # the build failed: say so on the screen, never leave it "running"
         try:
             with db.write(conn):
@@ -123,7 +127,8 @@ def start_build(project_id: int, user_id: int | None) -> tuple[review_q.RecordJo
         job_id = review_q.create_job(conn, project_id, user_id)
     _records_dir()
     app = current_app._get_current_object()
-    thread = threading.Thread(target=run_build, args=(app, project_id, job_id), name=f"record-{job_id}",
+    actor = g.user.label if g.get("user") else "record"
+    thread = threading.Thread(target=run_build, args=(app, project_id, job_id, actor), name=f"record-{job_id}",
                               daemon=True)
     with _lock:
         _running[job_id] = thread
