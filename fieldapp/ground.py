@@ -154,6 +154,15 @@ def _save(project, model: GroundModelRow | None):
     if request.method == "POST" and "more_rows" not in request.form and form.validate_on_submit():
         layers = [row.values() for row in form.filled_layers()]
         name = form.name.data.strip()
+        bottom = min(layer["bottom_level_m"] for layer in layers)
+        deeper = ground.piles_below(conn, model.id, bottom) if model else []
+        if deeper:
+            marks = ", ".join(f"{mark} ({toe:g} m)" for mark, toe in deeper[:10])
+            form.layers.errors.append(
+                f"Layers: the model would end at {bottom:g} m, above the design toe of {len(deeper)} pile(s) "
+                f"that use it: {marks}{' ...' if len(deeper) > 10 else ''}. Keep the layers down to the "
+                "deepest toe")
+            return render_template("ground_form.html", project=project, form=form, model=model), 400
         try:
             with db.write(conn):
                 model_id = ground.save_model(conn, project.id, name, form.water_level_m.data, layers,

@@ -114,7 +114,7 @@ def new_pile(project_id):
         cap = request.args.get("cap", "")
         if cap.isdigit():
             form.cap_id.data = cap
-    if form.validate_on_submit():
+    if form.validate_on_submit() and _in_ground(conn, project_id, form, form.values()):
         values = form.values()
         try:
             with db.write(conn):
@@ -144,7 +144,7 @@ def edit_pile(project_id, pile_id):
         form.ground_model_id.data = str(row.ground_model_id)
     else:
         form = _pile_form(conn, project_id, formdata=request.form)
-    if form.validate_on_submit():
+    if form.validate_on_submit() and _in_ground(conn, project_id, form, form.values()):
         values = form.values()
         before = piles.as_values(row)
         changed = {k: [before[k], v] for k, v in values.items() if before.get(k) != v}
@@ -159,6 +159,18 @@ def edit_pile(project_id, pile_id):
             return redirect(url_for("piles.list_piles", project_id=project_id, _anchor=f"pile-{pile_id}"))
     return render_template("piles_form.html", project=project, form=form, pile=row), 200 if (
         request.method == "GET") else 400
+
+
+def _in_ground(conn, project_id: int, form: PileForm, values: dict) -> bool:
+    """Put an error on the toe when it lies below the bottom of the chosen ground model."""
+    extent = ground.extents(conn, project_id).get(values["ground_model_id"])
+    if extent is None:
+        form.ground_model_id.errors.append("Ground model: choose one of the project's ground models")
+        return False
+    problems = piles.check_in_ground(values, extent[0], extent[2])
+    for name, message in problems:
+        getattr(form, name).errors.append(message)
+    return not problems
 
 
 def _payload(values: dict) -> dict:

@@ -24,7 +24,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from fieldapp.queries import audit, caps, ground, piles, projects
-from fieldapp.queries.piles import FIELD_BY_NAME, FIELDS, MARK_MAX, check_pile, check_value
+from fieldapp.queries.piles import FIELD_BY_NAME, FIELDS, MARK_MAX, check_in_ground, check_pile, check_value
 
 COLUMNS = ("mark", "cap", "pile_type", "easting_m", "northing_m", "cutoff_level_m", "toe_level_m",
            "diameter_mm", "ground_model", "compression_kn", "tension_kn", "shear_kn", "moment_knm",
@@ -217,6 +217,7 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
         return [], [RowError(0, "", f"the file holds more than {MAX_ROWS:,} rows")]
 
     models = ground.names(conn, project_id)
+    model_extents = ground.extents(conn, project_id)
     rules = projects.current_rules(conn, project_id).rules
     exposure_codes = [row.code for row in rules.exposure_table]
     marks_at: dict[str, int] = {}
@@ -256,7 +257,10 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
             row_errors.append(RowError(number, "exposure_class", f"exposure_class {code!r} is not in the "
                                        f"project's rules ({', '.join(exposure_codes)})"))
         if not any(e.column in FIELD_BY_NAME for e in row_errors):
-            for column, message in check_pile(values):
+            problems = check_pile(values)
+            if model_id in model_extents and not problems:
+                problems = check_in_ground(values, model_name, model_extents[model_id][2])
+            for column, message in problems:
                 row_errors.append(RowError(number, column, message))
         order = {name: i for i, name in enumerate(COLUMNS)}
         errors.extend(sorted(row_errors, key=lambda e: order.get(e.column, -1)))

@@ -241,3 +241,10 @@ def test_cli_import_and_export(app, project, tmp_path):
     assert "row 2, column mark" in result.output and "row 3, column ground_model" in result.output
     result = runner.invoke(main, ["--data", data_dir, "export", "999", str(tmp_path / "x.csv")])
     assert result.exit_code != 0 and "project 999 does not exist" in result.output
+
+
+def test_toe_below_the_ground_model_is_an_error_of_its_row(app, project):
+    lines = [GOOD[0], GOOD[1].replace(",-5.5,600,", ",-20.5,600,")]  # Zone 1 ends at -20 m
+    result = run_import(app, project["own"], csv_bytes(lines), "s.csv")
+    assert [(e.row, e.column) for e in result.errors] == [(3, "toe_level_m")]
+    assert "below the bottom of ground model 'Zone 1' (-20 m)" in result.errors[0].message

@@ -417,3 +417,23 @@ def test_demo_is_a_consistent_project(app):
         assert result.design >= r.compression_kn, r.mark
         assert result.design <= 1.6 * r.compression_kn, r.mark  # a small margin, not a random deep toe
         assert math.isclose(r.toe_level_m * 4, round(r.toe_level_m * 4))  # rounded to 0.25 m
+
+
+def test_toe_below_the_ground_model_is_refused_on_piles_and_on_ground_edits(app, client, engineer, setup):
+    """The capacity check needs ground down to the toe: a pile cannot go deeper than its ground
+    model, and a ground model cannot be cut above the toes of the piles on it."""
+    pid = setup["own"]
+    data = as_form(pile_values("P12", setup["gm"], toe_level_m=-25))
+    response = client.post(f"/projects/{pid}/piles/new", data=dict(data, csrf_token=engineer))
+    assert response.status_code == 400
+    assert any("toe_level_m (-25 m) is below the bottom of ground model 'Zone 1' (-20 m)" in e
+               for e in errors(response))
+    shallower = [dict(LAYERS[0]), dict(LAYERS[1], bottom_level_m=-6.0)]  # P2's toe is at -8 m
+    response = client.post(f"/projects/{pid}/ground/{setup['gm']}/edit",
+                           data=dict(ground_form(shallower, name="Zone 1"), csrf_token=engineer))
+    assert response.status_code == 400
+    assert any("above the design toe of 1 pile(s) that use it: P2 (-8 m)" in e for e in errors(response))
+    with app.app_context():
+        conn = db.get_db()
+        assert piles.get_pile(conn, pid, "P12") is None
+        assert ground.load_ground_model(conn, setup["gm"]).bottom == -20.0

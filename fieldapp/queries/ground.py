@@ -185,3 +185,19 @@ def piles_using(conn: sqlite3.Connection, ground_model_id: int) -> int:
     """How many piles use this ground model."""
     return conn.execute("SELECT COUNT(*) FROM piles WHERE ground_model_id = ?",
                         (ground_model_id,)).fetchone()[0]
+
+
+def extents(conn: sqlite3.Connection, project_id: int) -> dict[int, tuple[str, float, float]]:
+    """Ground model id -> (name, top level m, bottom level m) for the project's models."""
+    rows = conn.execute(
+        "SELECT g.id, g.name, MAX(l.top_level_m) AS top, MIN(l.bottom_level_m) AS bottom "
+        "FROM ground_models g JOIN layers l ON l.ground_model_id = g.id WHERE g.project_id = ? "
+        "GROUP BY g.id, g.name", (project_id,)).fetchall()
+    return {r["id"]: (r["name"], r["top"], r["bottom"]) for r in rows}
+
+
+def piles_below(conn: sqlite3.Connection, ground_model_id: int, level_m: float) -> list[tuple[str, float]]:
+    """(mark, toe level m) of the piles on this ground model whose design toe is below ``level_m``."""
+    rows = conn.execute("SELECT mark, toe_level_m FROM piles WHERE ground_model_id = ? AND toe_level_m < ? "
+                        "ORDER BY toe_level_m", (ground_model_id, level_m - 1e-6)).fetchall()
+    return [(r["mark"], r["toe_level_m"]) for r in rows]

@@ -318,3 +318,13 @@ def exposure_classes_used(conn: sqlite3.Connection, project_id: int) -> dict[str
     return {r[0]: r[1] for r in conn.execute(
         "SELECT exposure_class, COUNT(*) FROM piles WHERE project_id = ? GROUP BY exposure_class",
         (project_id,)).fetchall()}
+
+
+def check_in_ground(values: dict, model_name: str, bottom_m: float) -> list[tuple[str, str]]:
+    """[(field, message)] when the design toe lies below the bottom of its ground model (the
+    capacity check needs the ground down to the toe)."""
+    toe = values.get("toe_level_m")
+    if toe is not None and toe < bottom_m - 1e-6:
+        return [("toe_level_m", f"toe_level_m ({toe:g} m) is below the bottom of ground model {model_name!r} "
+                 f"({bottom_m:g} m): extend the ground model or raise the toe")]
+    return []
