@@ -5,13 +5,14 @@
 * refuse more than ``MAX_BYTES`` (25 MB), anything Pillow cannot identify as an image, images
   over ``MAX_PIXELS`` (50 megapixels; Pillow's decompression-bomb guard is set to the same
   limit and its ``DecompressionBombError``/``Warning`` become a refusal) and truncated files
-  (the whole image is decoded once; a short file fails there);
+  (the whole file is decoded once, a JPEG at the reduced scale the display copy needs; a short
+  file fails there);
 * keep the original bytes, untouched, as ``photos/originals/<sha[:2]>/<sha256>.<ext>`` (the
   evidence; the client's file name never becomes a path);
 * apply the EXIF orientation, then write a display copy no larger than 1600 px and a
-  thumbnail no larger than 320 px as JPEG (``photos/display/<sha>.jpg``, ``photos/thumb/<sha>.jpg``),
-  decoding JPEGs with ``Image.draft`` at a reduced scale first, which is several times faster
-  than a full decode of a camera-sized image;
+  thumbnail no larger than 320 px (made from the display copy) as JPEG
+  (``photos/display/<sha>.jpg``, ``photos/thumb/<sha>.jpg``), decoding JPEGs with
+  ``Image.draft`` at 1/2, 1/4 or 1/8 scale when the display copy needs no more;
 * read the EXIF capture time (DateTimeOriginal, else DateTime) as ISO 8601.
 
 ``add_photo(conn, project_id, pile_row, user, client_id, kind, caption, data)`` is the one
@@ -159,25 +160,30 @@ def _open(data: bytes) -> Image.Image:
     return image
 
 
-def _copy(data: bytes, size: int) -> tuple[bytes, tuple[int, int]]:
-    """A JPEG at most ``size`` px on its long side, EXIF orientation applied."""
-    image = _open(data)
-    if image.format in ("JPEG", "MPO"):
-        # Decode at 1/2, 1/4 or 1/8 scale when that is enough. draft() keeps a scale only when
-        # both sides stay at least the size asked for, so ask for the copy's own proportions:
-        # (size, size) made a 4000 x 3000 photo decode at full size for a 1600 px copy.
-        scale = size / max(image.size)
-        image.draft("RGB", (math.ceil(image.width * scale), math.ceil(image.height * scale)))
+def _draft_box(size: tuple[int, int], long_side: int) -> tuple[int, int]:
+    """The size to ask ``Image.draft`` for so a JPEG decodes at the smallest DCT scale (1/2,
+    1/4, 1/8) that still gives ``long_side`` px. draft() keeps a scale only while both sides
+    stay at least the size asked for, so this keeps the image's proportions: (1600, 1600) made
+    a 4000 x 3000 photo decode at full size."""
+    scale = min(1.0, long_side / max(size))
+    return math.ceil(size[0] * scale), math.ceil(size[1] * scale)
+
+
+def _viewable(image: Image.Image) -> Image.Image:
+    """The image turned by its EXIF orientation, as RGB or L (transparency on white)."""
     image = ImageOps.exif_transpose(image)
     if image.mode not in ("RGB", "L"):
         background = Image.new("RGB", image.size, "white")
         rgba = image.convert("RGBA")
         background.paste(rgba, mask=rgba.getchannel("A"))
         image = background
-    image.thumbnail((size, size), Image.Resampling.LANCZOS)
+    return image
+
+
+def _jpeg(image: Image.Image) -> bytes:
     out = io.BytesIO()
     image.save(out, "JPEG", quality=85, optimize=True)
-    return out.getvalue(), image.size
+    return out.getvalue()
 
 
 def ingest(data: bytes, photo_dir: str | Path) -> Ingested:
@@ -192,20 +198,27 @@ def ingest(data: bytes, photo_dir: str | Path) -> Ingested:
         raise PhotoRejected("the file is empty")
     image = _open(data)
     fmt = image.format
+    width, height = image.size
     try:
         image.verify()  # structure check (PNG checksums, etc.)
-        full = _open(data)
-        full.load()  # the full decode: a truncated file fails here
+        decoded = _open(data)
+        if fmt in ("JPEG", "MPO"):
+            decoded.draft("RGB", _draft_box(decoded.size, DISPLAY_PX))
+        # The one decode of the whole file (a JPEG at the scale the display copy needs: its
+        # entropy-coded data is still read to the end), so a truncated file fails here.
+        decoded.load()
     except PhotoRejected:
         raise
     except (OSError, SyntaxError, ValueError, Image.DecompressionBombError) as exc:
         raise PhotoRejected(f"the image is damaged or truncated ({exc})") from None
-    taken_at = exif_taken_at(full)
-    width, height = full.size
-    if _orientation(full) in _QUARTER_TURNS:  # the size as viewed, without turning the pixels
+    taken_at = exif_taken_at(decoded)
+    if _orientation(decoded) in _QUARTER_TURNS:  # the size as viewed, without turning the pixels
         width, height = height, width
-    display, display_size = _copy(data, DISPLAY_PX)
-    thumb, thumb_size = _copy(data, THUMB_PX)
+    view = _viewable(decoded)
+    view.thumbnail((DISPLAY_PX, DISPLAY_PX), Image.Resampling.LANCZOS)
+    display, display_size = _jpeg(view), view.size
+    view.thumbnail((THUMB_PX, THUMB_PX), Image.Resampling.LANCZOS)  # from the display copy
+    thumb, thumb_size = _jpeg(view), view.size
 
     sha = hashlib.sha256(data).hexdigest()
     original = original_path(photo_dir, sha, fmt)
