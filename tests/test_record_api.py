@@ -404,3 +404,46 @@ def test_demo_records_go_through_the_save_path_with_one_of_each_shortfall(app):
         moved = next(p for p in recorded if any(c["code"] == "position" and c["ok"] is False
                                                 for c in current[p.id].checks))
         assert moved.cap_mark and len([p for p in all_piles if p.cap_mark == moved.cap_mark]) >= 4
+
+
+# --- the At the rig screens (server side; tests/browser drives them in Chromium) -----------
+
+def test_rig_pick_finds_by_mark_and_offers_the_nearest_planned_pile(client, auth, site):
+    auth.login(site["inspector"])
+    page = client.get(f"/projects/{site['own']}/rig?q=b1").get_data(as_text=True)
+    assert f'href="/projects/{site["own"]}/rig/B1"' in page and "Open B1" in page
+    # nothing saved yet: no nearest pile until a position is typed (decimal comma accepted)
+    assert "type where the rig stands" in client.get(f"/projects/{site['own']}/rig").get_data(as_text=True)
+    page = client.get(f"/projects/{site['own']}/rig?e=509,5&n=200").get_data(as_text=True)
+    first = page.index("Nearest planned pile")
+    assert page.index("<strong>B1</strong>", first) < page.index("<strong>A2</strong>", first)
+    # after A1 is saved, the nearest planned piles are measured from A1
+    put(client, auth, site["own"], "A1", full_record(site))
+    page = client.get(f"/projects/{site['own']}/rig").get_data(as_text=True)
+    assert "From A1 (saved last)" in page
+    assert "<strong>A2</strong> <span>1.8 m away" in page
+
+
+def test_rig_page_embeds_its_data_as_json_and_no_inline_script(client, auth, site):
+    auth.login(site["inspector"])
+    response = client.get(f"/projects/{site['own']}/rig/B1")
+    html = response.get_data(as_text=True)
+    assert response.status_code == 200
+    start = html.index('<script type="application/json" id="rig-data">') + len(
+        '<script type="application/json" id="rig-data">')
+    data = json.loads(html[start:html.index("</script>", start)])
+    assert data["mark"] == "B1" and data["version"] == 0
+    assert data["required_toe_level"] == pytest.approx(site["need"], abs=0.02)
+    assert data["urls"]["record"] == f"/api/v1/projects/{site['own']}/piles/B1/record"
+    scripts = [s for s in html.split("<script")[1:]]
+    assert all(' src="' in s.split(">")[0] or 'type="application/json"' in s.split(">")[0] for s in scripts)
+    assert 'inputmode="decimal"' in html and "Caution" in html
+
+
+def test_rig_pages_are_for_members_only(client, auth, site):
+    auth.login(site["outsider"])
+    assert client.get(f"/projects/{site['own']}/rig").status_code == 404
+    assert client.get(f"/projects/{site['own']}/rig/B1").status_code == 404
+    auth.logout()
+    auth.login(site["inspector"])
+    assert client.get(f"/projects/{site['own']}/rig/NOPE").status_code == 404
