@@ -474,6 +474,13 @@
       byId("result").scrollIntoView({ block: "start" });
     } else if (answer.status === 422 && body.errors) {
       showErrors(body.errors);
+    } else if (answer.status === 409 && body.error === "locked") {
+      // A signed record: a change is an amendment with its reason, and needs a new sign-off.
+      pendingAmendment = record;
+      byId("amend-box").hidden = false;
+      status("Not saved: " + (body.message || "this record is signed") +
+             ". To change it, give the reason and save it as an amendment.", "short");
+      byId("amend-reason").focus();
     } else if (answer.status === 409) {
       status("Not saved: " + (body.message || "the record changed on the server") +
              ". Reload the page to see the newest version.", "short");
@@ -481,6 +488,28 @@
       status("Not saved: your login has expired. Log in again.", "short");
     } else {
       status("Not saved: " + (body.error || ("the server answered " + answer.status)), "short");
+    }
+  }
+
+  let pendingAmendment = null;
+  async function saveAmendment() {
+    const reason = byId("amend-reason").value.trim();
+    const rec = pendingAmendment;
+    if (!rec) return;
+    if (!reason) { status("Give the reason for the amendment first.", "short"); return; }
+    byId("amend-save").disabled = true;
+    try {
+      const answer = await putDirect({ base_version: data.version || 0, record: rec, amendment: { reason: reason } });
+      if (answer.ok) {
+        byId("amend-box").hidden = true;
+        byId("amend-reason").value = "";
+        pendingAmendment = null;
+      }
+      handleAnswer(answer, rec);
+    } catch (err) {
+      status("Not saved: " + (err && err.message ? err.message : err), "short");
+    } finally {
+      byId("amend-save").disabled = false;
     }
   }
 
@@ -611,6 +640,7 @@
   byId("add-stratum").addEventListener("click", () => { addStratum(); live(); });
   byId("add-delivery").addEventListener("click", () => { addDelivery(); live(); });
   if (byId("save")) form.addEventListener("submit", save);
+  if (byId("amend-save")) byId("amend-save").addEventListener("click", saveAmendment);
   const photoForm = byId("photo-form");
   if (photoForm) photoForm.addEventListener("submit", uploadPhoto);
 

@@ -167,3 +167,35 @@ def test_viewer_sees_the_record_but_cannot_save(page, rig_site):
     page.goto(f"{rig_site['base']}/projects/{rig_site['own']}/rig/R1")
     expect(page.locator("#save")).to_have_count(0)
     assert page.is_disabled("#f-measured_depth")
+
+
+def test_a_signed_record_is_changed_only_as_an_amendment_with_a_reason(page, rig_site, app):
+    base, pid = rig_site["base"], rig_site["own"]
+    office = app.test_client()
+    html = office.get("/login").get_data(as_text=True)
+    token = re.search(r'name="csrf-token" content="([^"]+)"', html).group(1)
+    office.post("/login", data={"email": rig_site["engineer"], "password": PASSWORD, "csrf_token": token})
+    token = office.get("/api/v1/session").get_json()["csrf_token"]
+    saved = office.put(f"/api/v1/projects/{pid}/piles/R1/record", headers={"X-CSRFToken": token},
+                       json={"client_id": "amend-test-0001", "base_version": 0,
+                             "record": {"progress": "logged", "platform_level": 100.0, "measured_depth": 21.0}})
+    assert saved.status_code == 200
+    signed = office.post(f"/api/v1/projects/{pid}/piles/R1/signoff", headers={"X-CSRFToken": token},
+                         json={"disposition": "accepted with conditions", "reasons": "test of the lock",
+                               "password": PASSWORD})
+    assert signed.status_code == 200, signed.get_json()
+
+    login(page, base, rig_site["inspector"])
+    page.goto(f"{base}/projects/{pid}/rig/R1")
+    page.fill("#f-notes", "cage lifted 50 mm during the pour")
+    page.select_option("#f-progress", "logged")
+    page.click("#save")
+    expect(page.locator("#save-status")).to_contain_text("signed")
+    expect(page.locator("#amend-box")).to_be_visible()
+    page.fill("#amend-reason", "cage level corrected from the pour record")
+    page.click("#amend-save")
+    expect(page.locator("#version-now")).to_have_text("2")
+    expect(page.locator("#amend-box")).to_be_hidden()
+    versions = office.get(f"/api/v1/projects/{pid}/piles/R1/history").get_json()["versions"]
+    assert [v["version"] for v in versions] == [1, 2]
+    assert versions[1]["record"]["notes"] == "cage lifted 50 mm during the pour"
