@@ -15,13 +15,13 @@ from dataclasses import fields as dc_fields
 from flask_wtf import FlaskForm
 from flask_wtf.file import FileAllowed, FileField, FileRequired
 from wtforms import Field, FieldList, Form, FormField, SelectChoice, SelectField, StringField, TextAreaField
-from wtforms.validators import DataRequired, Length, StopValidation
+from wtforms.validators import DataRequired, Length, StopValidation, ValidationError
 from wtforms.widgets import NumberInput
 
 from design_core import Rules
 from design_core.inputs import MATERIALS, PILE_TYPES, PileDesign
 from fieldapp.queries.caps import CAP_LOAD_LIMIT
-from fieldapp.queries.piles import FIELDS, LEVEL_LIMIT_M, MARK_MAX, check_pile
+from fieldapp.queries.piles import FIELDS, LEVEL_LIMIT_M, MARK_MAX, check_pile, label_problem
 
 MATERIAL_LABELS = {
     "cohesive": "cohesive (clay: alpha method, needs c_u)",
@@ -117,6 +117,13 @@ class MeasureField(Field):
             raise StopValidation(f"{self.label.text} must be {self.range_text}, got {fmt_number(self.data)}")
 
 
+def not_formula(form, field):
+    """WTForms validator: a mark or name must not start like a spreadsheet formula."""
+    problem = label_problem(field.label.text, (field.data or "").strip())
+    if problem:
+        raise ValidationError(problem)
+
+
 def _blank_to_none(value):
     return value.strip() if isinstance(value, str) and value.strip() else None
 
@@ -128,7 +135,8 @@ class PileForm(FlaskForm):
     choices before validating (they depend on the project)."""
 
     mark = StringField("Mark", [DataRequired(message=f"Mark is required (1 to {MARK_MAX} characters)"),
-                                Length(max=MARK_MAX, message=f"Mark must be 1 to {MARK_MAX} characters")])
+                                Length(max=MARK_MAX, message=f"Mark must be 1 to {MARK_MAX} characters"),
+                                not_formula])
     cap_id = SelectField("Cap", coerce=str, validate_choice=True)
     ground_model_id = SelectField("Ground model", coerce=str)
 
@@ -196,7 +204,7 @@ class CapForm(FlaskForm):
     """A cap: mark and loads at the centroid of its piles."""
 
     mark = StringField("Cap mark", [DataRequired(message="Cap mark is required (1 to 40 characters)"),
-                                    Length(max=40, message="Cap mark must be 1 to 40 characters")])
+                                    Length(max=40, message="Cap mark must be 1 to 40 characters"), not_formula])
     n_kn = MeasureField("N (vertical, compression +)", lo=-CAP_LOAD_LIMIT, hi=CAP_LOAD_LIMIT, unit="kN",
                         required=False, default=0.0)
     mx_knm = MeasureField("Mx (adds compression towards +northing)", lo=-CAP_LOAD_LIMIT, hi=CAP_LOAD_LIMIT,
@@ -258,7 +266,7 @@ class GroundModelForm(FlaskForm):
     """A ground model: name, water level and layers from the top down."""
 
     name = StringField("Name", [DataRequired(message="Name is required (1 to 80 characters)"),
-                                Length(max=80, message="Name must be 1 to 80 characters")])
+                                Length(max=80, message="Name must be 1 to 80 characters"), not_formula])
     description = TextAreaField("Description", [Length(max=1000, message="Description must be at most 1,000 characters")])
     water_level_m = MeasureField("Groundwater level", lo=-LEVEL_LIMIT_M, hi=LEVEL_LIMIT_M, unit="m")
     layers = FieldList(FormField(LayerForm), min_entries=1, max_entries=30)

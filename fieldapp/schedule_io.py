@@ -24,7 +24,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from fieldapp.queries import audit, caps, ground, piles, projects
-from fieldapp.queries.piles import FIELD_BY_NAME, FIELDS, MARK_MAX, check_in_ground, check_pile, check_value
+from fieldapp.queries.piles import (FIELD_BY_NAME, FIELDS, MARK_MAX, check_in_ground, check_pile, check_value,
+                                    label_problem)
 
 COLUMNS = ("mark", "cap", "pile_type", "easting_m", "northing_m", "cutoff_level_m", "toe_level_m",
            "diameter_mm", "ground_model", "compression_kn", "tension_kn", "shear_kn", "moment_knm",
@@ -231,6 +232,8 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
             row_errors.append(RowError(number, "mark", f"mark is required (1 to {MARK_MAX} characters)"))
         elif len(mark) > MARK_MAX:
             row_errors.append(RowError(number, "mark", f"mark must be at most {MARK_MAX} characters"))
+        elif label_problem("mark", mark):
+            row_errors.append(RowError(number, "mark", label_problem("mark", mark)))
         elif mark in marks_at:
             row_errors.append(RowError(number, "mark", f"mark {mark} is also on row {marks_at[mark]}"))
         else:
@@ -238,6 +241,8 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
         cap = raw.get("cap", "").strip()
         if len(cap) > 40:
             row_errors.append(RowError(number, "cap", "cap must be at most 40 characters"))
+        elif label_problem("cap", cap):
+            row_errors.append(RowError(number, "cap", label_problem("cap", cap)))
         model_name = raw.get("ground_model", "").strip()
         model_id = models.get(model_name)
         if not model_name:
@@ -344,12 +349,21 @@ def to_csv(rows: list[dict]) -> bytes:
 def to_xlsx(rows: list[dict]) -> bytes:
     """XLSX bytes of export rows: one sheet 'schedule', header row, numbers as numbers."""
     from openpyxl import Workbook
+    from openpyxl.cell import WriteOnlyCell
 
     workbook = Workbook(write_only=True)
     sheet = workbook.create_sheet("schedule")
+
+    def cell(value):
+        if not isinstance(value, str):
+            return value
+        text = WriteOnlyCell(sheet, value=value)
+        text.data_type = "s"  # never a formula, whatever the text starts with
+        return text
+
     sheet.append(list(COLUMNS))
     for row in rows:
-        sheet.append([row[c] for c in COLUMNS])
+        sheet.append([cell(row[c]) for c in COLUMNS])
     buf = io.BytesIO()
     workbook.save(buf)
     return buf.getvalue()

@@ -248,3 +248,23 @@ def test_toe_below_the_ground_model_is_an_error_of_its_row(app, project):
     result = run_import(app, project["own"], csv_bytes(lines), "s.csv")
     assert [(e.row, e.column) for e in result.errors] == [(3, "toe_level_m")]
     assert "below the bottom of ground model 'Zone 1' (-20 m)" in result.errors[0].message
+
+
+def test_text_that_looks_like_a_formula_is_refused_on_import_and_never_a_formula_in_xlsx(app, project):
+    lines = [GOOD[0].replace("A1,K1", "=HYPERLINK(1),K1"), GOOD[1].replace("A2,K1", "A2,@K1")]
+    result = run_import(app, project["own"], csv_bytes(lines), "s.csv")
+    assert [(e.row, e.column) for e in result.errors] == [(2, "mark"), (3, "cap")]
+    assert "must not start with '='" in result.errors[0].message
+    with app.app_context():  # a name stored some other way still exports as plain text
+        conn = db.get_db()
+        with db.write(conn):
+            gm = ground.save_model(conn, project["own"], "=1+2", 8.0, LAYERS)
+            piles.save_pile(conn, project["own"], {
+                "mark": "F1", "cap_id": None, "ground_model_id": gm, "pile_type": "bored", "easting_m": 0.0,
+                "northing_m": 0.0, "cutoff_level_m": 9.0, "toe_level_m": -5.0, "diameter_mm": 600.0,
+                "compression_kn": 0.0, "tension_kn": 0.0, "shear_kn": 0.0, "moment_knm": 0.0, "n_bars": 0,
+                "bar_mm": 0.0, "cage_length_m": 0.0, "fc_mpa": 32.0, "fy_mpa": 500.0, "exposure_class": "XC2",
+                "cover_mm": 75.0, "head": "free"})
+        data = schedule_io.export_schedule(conn, project["own"], "xlsx")
+    cell = load_workbook(io.BytesIO(data)).worksheets[0]["I2"]
+    assert (cell.value, cell.data_type) == ("=1+2", "s")

@@ -437,3 +437,13 @@ def test_toe_below_the_ground_model_is_refused_on_piles_and_on_ground_edits(app,
         conn = db.get_db()
         assert piles.get_pile(conn, pid, "P12") is None
         assert ground.load_ground_model(conn, setup["gm"]).bottom == -20.0
+
+
+def test_marks_that_look_like_formulas_are_refused(app, client, engineer, setup):
+    pid = setup["own"]
+    data = as_form(pile_values("=cmd|' /C calc'!A0", setup["gm"]))
+    response = client.post(f"/projects/{pid}/piles/new", data=dict(data, csrf_token=engineer))
+    assert response.status_code == 400
+    assert any("Mark must not start with '='" in e for e in errors(response))
+    response = client.post(f"/projects/{pid}/caps/new", data={"mark": "+C9", "csrf_token": engineer})
+    assert any("Cap mark must not start with '+'" in e for e in errors(response))

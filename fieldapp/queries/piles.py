@@ -77,6 +77,19 @@ FIELD_BY_NAME = {f.name: f for f in FIELDS}
 MARK_MAX = 40
 
 
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def label_problem(name: str, value: str) -> str | None:
+    """A message when a mark or name starts like a spreadsheet formula (=, +, -, @), else None.
+
+    Marks and names go into CSV/XLSX exports, where such text would be run as a formula.
+    """
+    if value and value.startswith(FORMULA_STARTS):
+        return f"{name} must not start with {value[0]!r} (a spreadsheet would read it as a formula)"
+    return None
+
+
 def check_value(spec: FieldSpec, value) -> tuple[object, str | None]:
     """(clean value, None) or (None, message naming the field and its allowed range).
 
