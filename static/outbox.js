@@ -799,6 +799,22 @@
     });
   }
 
+  // On a project's page, once per session: keep the At the rig pick page and one pile's rig
+  // page in the worker's cache, so that any pile of the project opens offline (the worker
+  // serves that page as the shell and rig.js fills the pile in from the bundle).
+  async function warmProject(projectId, bundle) {
+    const key = "toeline-warm-" + projectId;
+    try { if (sessionStorage.getItem(key)) return; } catch (err) { /* private mode */ }
+    if (!bundle || !bundle.piles || !navigator.serviceWorker || !navigator.serviceWorker.controller) return;
+    const marks = Object.keys(bundle.piles);
+    if (!marks.length) return;
+    const base = "/projects/" + projectId + "/rig";
+    const answer = await cachePages([base, base + "/" + encodeURIComponent(marks[0])]);
+    if (answer && answer.ok) {
+      try { sessionStorage.setItem(key, "1"); } catch (err) { /* private mode */ }
+    }
+  }
+
   // At log-out: drop the cached pages and project bundles (another person may use the tablet
   // next); the outbox stays, and is sent when someone signs in again.
   function hookLogout() {
@@ -807,6 +823,7 @@
         if (form.dataset.cleared) return;
         event.preventDefault();
         const done = () => { form.dataset.cleared = "1"; form.submit(); };
+        try { sessionStorage.clear(); } catch (err) { /* private mode */ }
         Promise.all([forgetPages(), tx("bundles", "readwrite", (s) => s.clear())]).then(done, done);
       });
     });
@@ -822,7 +839,9 @@
     window.addEventListener("offline", () => { showNet(); refreshStatus(); });
     document.addEventListener("visibilitychange", () => { if (!document.hidden && navigator.onLine !== false) flush(); });
     const projectId = projectIdFromUrl();
-    if (projectId && navigator.onLine !== false) refreshBundle(projectId);
+    if (projectId && navigator.onLine !== false) {
+      refreshBundle(projectId).then((bundle) => warmProject(projectId, bundle)).catch(() => {});
+    }
     if (navigator.onLine !== false) flush();
   }
 

@@ -216,16 +216,18 @@ PHOTO = png_bytes()
 SHORT = {"progress": "boring", "platform_level": 50.0, "measured_depth": 4.0}
 
 
-def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site):
+def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site, tmp_path):
     pid = site["pid"]
     api = Api(site)
-    # 1. Online as an inspector: the worker takes control, the project's bundle is kept.
+    # 1. Online as an inspector: the worker takes control, the project's bundle is kept and
+    #    the At the rig shell is cached.
     page = tablet.open()
     login(page, site, site["inspector"])
     page.goto(tablet.url(f"/projects/{pid}/piles"))
     wait_controlled(page)
     wait_bundle(page, pid)
-    page.reload()  # now through the worker, so the page is in its cache
+    page.reload()  # now through the worker: the page is cached, the rig shell warmed
+    until(page, "async (pid) => !!(await caches.match(`/projects/${pid}/rig`))", pid)
 
     tablet.context.set_offline(True)
     until(page, "() => document.getElementById('net-status').textContent === 'offline'")
@@ -233,14 +235,28 @@ def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site
     assert response.from_service_worker, "the offline reload must come from the worker's cache"
     assert page.locator("#net-status").inner_text() == "offline"
 
-    answer = save_record_js(page, pid, "P1", SHORT, 0)
-    assert answer["queued"] is True
+    # Open a pile never opened on this tablet; the live check works from the bundle.
+    response = page.goto(tablet.url(f"/projects/{pid}/rig/P2"))
+    assert response.from_service_worker
+    until(page, "() => window.ToelineRig && window.ToelineRig.data().mark === 'P2'")
+    page.fill("#f-platform_level", "50")
+    page.fill("#f-measured_depth", "4")
+    live = page.locator("#live-toe")
+    assert "more needed for 800 kN" in live.inner_text()
+    assert live.get_attribute("data-state") == "short"
+    page.click("#save")
+    until(page, "() => document.getElementById('save-status').textContent.includes('Saved on this tablet')")
     waiting_is(page, 1)
     assert "1 waiting" in page.locator("#outbox-status").inner_text()
     assert page.locator("#outbox-send").is_visible()
-    answer = save_photo_js(page, pid, "P1", PHOTO)
-    assert answer["queued"] is True
+    photo = tmp_path / "base.png"
+    photo.write_bytes(PHOTO)
+    page.set_input_files("#photo-file", str(photo))
+    page.select_option("#photo-kind", "base")
+    page.fill("#photo-caption", "base clean")
+    page.click("#photo-upload")
     waiting_is(page, 2)
+    assert "waiting to be sent" in page.locator("#photo-list").inner_text()
 
     # 2. Close the browser and open it again, still offline: both items are still there.
     tablet.close()
@@ -248,19 +264,26 @@ def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site
     response = page.goto(tablet.url(f"/projects/{pid}/piles"))
     assert response.from_service_worker
     waiting_is(page, 2)
-    assert api.history("P1") == [] and api.photos("P1") == []
+    assert api.history("P2") == [] and api.photos("P2") == []
 
     # 3. The network returns: the outbox empties, the server holds one version and one photo.
     tablet.context.set_offline(False)
     waiting_is(page, 0)
-    versions = api.history("P1")
+    versions = api.history("P2")
     assert len(versions) == 1 and versions[0]["record"]["measured_depth"] == 4.0
     assert versions[0]["verdict"] == "needs engineer"
-    photos = api.photos("P1")
-    assert len(photos) == 1
+    short = [c["code"] for c in versions[0]["checks"] if c["ok"] is False]
+    assert "axial_compression" in short
+    photos = api.photos("P2")
+    assert len(photos) == 1 and photos[0]["kind"] == "base"
     assert photos[0]["sha256"] == hashlib.sha256(PHOTO).hexdigest()  # the original bytes, kept
     assert outbox_counts(page) == {"waiting": 0, "conflict": 0, "rejected": 0, "bytes": 0}
-    bundle_pile = page.evaluate(f"window.ToelineOutbox.getBundle({pid}).then((b) => b.piles.P1)")
+    # The verdict appears on the tablet: the pile's page, online again, shows it.
+    page.goto(tablet.url(f"/projects/{pid}/rig/P2"))
+    verdict = page.locator("#verdict")
+    until(page, "() => document.getElementById('verdict').dataset.verdict === 'needs engineer'")
+    assert "NEEDS ENGINEER" in verdict.inner_text()
+    bundle_pile = page.evaluate(f"window.ToelineOutbox.getBundle({pid}).then((b) => b.piles.P2)")
     assert bundle_pile["version"] == 1 and bundle_pile["verdict"] == "needs engineer"
 
 
