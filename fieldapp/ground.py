@@ -176,6 +176,10 @@ def _save(project, model: GroundModelRow | None):
         else:
             used = ground.piles_using(conn, model_id)
             flash(f"Ground model {name} saved." + (f" {used} pile(s) use it." if used else ""))
+            checked = ground.piles_checked_on(conn, model_id)
+            if checked:
+                flash(f"{checked} pile(s) on this ground model were checked against the model as it was: "
+                      "their verdicts stand until their records are checked again.")
             return redirect(url_for("ground.list_models", project_id=project.id, _anchor=f"model-{model_id}"))
     status = 400 if request.method == "POST" and "more_rows" not in request.form else 200
     return render_template("ground_form.html", project=project, form=form, model=model), status

@@ -156,6 +156,9 @@ def edit_pile(project_id, pile_id):
             form.mark.errors.append(str(exc))
         else:
             flash(f"Pile {values['mark']} saved." if changed else f"Pile {values['mark']}: nothing changed.")
+            if changed and row.verdict:
+                flash(f"Pile {values['mark']} was checked against its old design: its verdict "
+                      f"({row.verdict}) stands until its record is checked again.")
             return redirect(url_for("piles.list_piles", project_id=project_id, _anchor=f"pile-{pile_id}"))
     return render_template("piles_form.html", project=project, form=form, pile=row), 200 if (
         request.method == "GET") else 400

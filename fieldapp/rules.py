@@ -80,6 +80,10 @@ def edit(project_id):
                              {"version": version, "from_version": current.version, "note": note,
                               "changed": changed})
             flash(f"Rules saved as version {version}.")
+            checked = piles.count_checked(conn, project_id)
+            if checked:
+                flash(f"{checked} pile(s) were checked with an earlier version: their verdicts stand until "
+                      "their records are checked again.")
             return redirect(url_for("rules.show", project_id=project_id))
     status = 400 if request.method == "POST" else 200
     return render_template("rules_form.html", project=project, form=form, current=current,

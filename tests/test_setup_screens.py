@@ -447,3 +447,18 @@ def test_marks_that_look_like_formulas_are_refused(app, client, engineer, setup)
     assert any("Mark must not start with '='" in e for e in errors(response))
     response = client.post(f"/projects/{pid}/caps/new", data={"mark": "+C9", "csrf_token": engineer})
     assert any("Cap mark must not start with '+'" in e for e in errors(response))
+
+
+def test_changing_what_a_verdict_rests_on_says_so(app, client, engineer, setup):
+    pid = setup["own"]
+    with app.app_context():
+        conn = db.get_db()
+        with db.write(conn):
+            conn.execute("UPDATE piles SET progress = 'logged', verdict = 'meets design' WHERE mark = 'P1'")
+    data = as_form(pile_values("P1", setup["gm"], setup["cap"], easting_m=99.0, compression_kn=1500))
+    page = client.post(f"/projects/{pid}/piles/{setup['p1']}/edit", data=dict(data, csrf_token=engineer),
+                       follow_redirects=True).get_data(as_text=True)
+    assert "Pile P1 was checked against its old design: its verdict (meets design) stands" in unescape(page)
+    page = client.post(f"/projects/{pid}/rules/edit", data=dict(rules_form(Rules(), fs_base=3.5), csrf_token=engineer),
+                       follow_redirects=True).get_data(as_text=True)
+    assert "1 pile(s) were checked with an earlier version" in page

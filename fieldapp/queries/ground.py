@@ -201,3 +201,9 @@ def piles_below(conn: sqlite3.Connection, ground_model_id: int, level_m: float) 
     rows = conn.execute("SELECT mark, toe_level_m FROM piles WHERE ground_model_id = ? AND toe_level_m < ? "
                         "ORDER BY toe_level_m", (ground_model_id, level_m - 1e-6)).fetchall()
     return [(r["mark"], r["toe_level_m"]) for r in rows]
+
+
+def piles_checked_on(conn: sqlite3.Connection, ground_model_id: int) -> int:
+    """How many piles on this ground model already carry a verdict."""
+    return conn.execute("SELECT COUNT(*) FROM piles WHERE ground_model_id = ? AND verdict IS NOT NULL",
+                        (ground_model_id,)).fetchone()[0]

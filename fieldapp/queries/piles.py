@@ -341,3 +341,9 @@ def check_in_ground(values: dict, model_name: str, bottom_m: float) -> list[tupl
         return [("toe_level_m", f"toe_level_m ({toe:g} m) is below the bottom of ground model {model_name!r} "
                  f"({bottom_m:g} m): extend the ground model or raise the toe")]
     return []
+
+
+def count_checked(conn: sqlite3.Connection, project_id: int) -> int:
+    """How many of the project's piles already carry a verdict."""
+    return conn.execute("SELECT COUNT(*) FROM piles WHERE project_id = ? AND verdict IS NOT NULL",
+                        (project_id,)).fetchone()[0]
