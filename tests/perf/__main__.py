@@ -45,9 +45,28 @@ TARGETS = {
 }
 
 
+def cpu_model() -> str:
+    """The processor's model name (from /proc/cpuinfo on Linux), else the architecture."""
+    try:
+        for line in Path("/proc/cpuinfo").read_text().splitlines():
+            if line.startswith("model name"):
+                return line.split(":", 1)[1].strip()
+    except OSError:
+        pass
+    return platform.processor() or platform.machine()
+
+
+def load_average() -> float:
+    """The 1-minute load average (other work on the machine slows every figure)."""
+    try:
+        return os.getloadavg()[0]
+    except OSError:
+        return float("nan")
+
+
 def machine() -> str:
     """A one-line description of the machine the figures came from."""
-    return (f"{platform.processor() or platform.machine()}, {os.cpu_count()} cores, "
+    return (f"{cpu_model()}, {os.cpu_count()} cores, "
             f"Python {platform.python_version()}, {platform.system()} {platform.release()}")
 
 
@@ -59,19 +78,31 @@ def main(argv=None) -> int:
 
     here = Path(__file__).resolve().parent
     figures: dict[str, float] = {}
+    failed: list[str] = []
+    load_start = load_average()
     for info in sorted(pkgutil.iter_modules([str(here)]), key=lambda m: m.name):
         if not info.name.startswith("bench_") or args.only not in info.name:
             continue
-        module = importlib.import_module(f"tests.perf.{info.name}")
         started = time.perf_counter()
-        print(f"running {info.name} ...", flush=True)
-        result = module.run()
+        print(f"running {info.name} (load average {load_average():.1f}) ...", flush=True)
+        try:
+            module = importlib.import_module(f"tests.perf.{info.name}")
+            result = module.run()
+        except Exception as exc:  # noqa: BLE001 - one broken benchmark must not hide the others
+            failed.append(info.name)
+            print(f"  FAILED: {type(exc).__name__}: {exc}", flush=True)
+            continue
         print(f"  done in {time.perf_counter() - started:.1f} s", flush=True)
+        if not result:
+            print("  (no figures: see the module's docstring)")
         figures.update({k: float(v) for k, v in result.items()})
 
     print()
     print(f"machine: {machine()}")
+    print(f"load average (1 min): {load_start:.1f} at the start, {load_average():.1f} at the end "
+          f"(above {os.cpu_count()} means other work shared the cores)")
     print(f"{'figure':<24}{'value':>14}  {'target':>14}  met")
+    missing = [name for name in TARGETS if name not in figures and not args.only]
     for name, value in figures.items():
         target, sense, unit = TARGETS.get(name, (None, "", ""))
         if target is None:
@@ -80,11 +111,15 @@ def main(argv=None) -> int:
             shown = f"{'<=' if sense == 'max' else '>='} {target:g} {unit}"
             met = "yes" if (value <= target if sense == "max" else value >= target) else "NO"
         print(f"{name:<24}{value:>14.4g}  {shown:>14}  {met}")
+    for name in missing:
+        print(f"{name:<24}{'-':>14}  {'':>14}  not measured")
+    if failed:
+        print("failed:", ", ".join(failed))
     if args.json_path:
-        clean = {k: (v if math.isfinite(v) else None) for k, v in figures.items()}
+        clean = {k: v for k, v in figures.items() if math.isfinite(v)}  # numbers only
         Path(args.json_path).write_text(json.dumps(clean, indent=1))
         print(f"figures written to {args.json_path}")
-    return 0
+    return 1 if failed else 0
 
 
 if __name__ == "__main__":
