@@ -123,15 +123,23 @@
     return rec;
   }
 
+  // Rows in which nothing was typed (only the drop-downs' defaults) are left out.
+  // Each row sent is marked with its index in the list (data-sent), so the server's
+  // "strata[1].to_depth" finds its row.
   function rows(bodyId) {
+    let sent = 0;
     return Array.from(byId(bodyId).querySelectorAll("tr")).map((tr) => {
       const row = {};
+      let typed = false;
       tr.querySelectorAll("[data-key]").forEach((el) => {
         const v = valueOf(el);
-        if (v !== null) row[el.dataset.key] = v;
+        if (v === null) return;
+        row[el.dataset.key] = v;
+        if (el.tagName !== "SELECT") typed = true;
       });
-      return row;
-    }).filter((row) => Object.keys(row).length > 0);
+      tr.dataset.sent = typed ? String(sent++) : "";
+      return typed ? row : null;
+    }).filter((row) => row !== null);
   }
 
   function num(path) {
@@ -403,7 +411,7 @@
       const m = /^(strata|deliveries)\[(\d+)\]\.?(\w+)?$/.exec(key);
       let target = null, slot = null;
       if (m) {
-        const tr = byId(m[1] === "strata" ? "strata-rows" : "delivery-rows").children[Number(m[2])];
+        const tr = byId(m[1] === "strata" ? "strata-rows" : "delivery-rows").querySelector('tr[data-sent="' + m[2] + '"]');
         target = tr && m[3] ? tr.querySelector('[data-key="' + m[3] + '"]') : null;
         slot = document.querySelector('[data-error-for="' + m[1] + '"]');
       } else {
@@ -655,12 +663,63 @@
       await outbox.ready;
       const offline = await outbox.pileOffline(data.project_id, urlMark || data.mark);
       if (offline) {
+        const shellMark = data.mark;
         data = Object.assign({}, data, offline, { urls: data.urls, can_record: data.can_record });
         if (urlMark && urlMark !== data.mark) data.mark = urlMark;
+        if (data.mark !== shellMark) showOtherPile(shellMark);
         fill();
       }
     } catch (err) { /* keep the page as the server sent it */ }
   }
+
+  // The worker served the cached page of another pile as the shell: retitle it for this pile,
+  // and clear what belonged to the other one (its photos, its verdict). (outbox.js)
+  function showOtherPile(shellMark) {
+    const d = data.design || {};
+    document.title = "Pile " + data.mark + " at the rig (offline) · Toeline";
+    const h1 = document.querySelector(".rig-head h1");
+    if (h1) h1.textContent = "Pile " + data.mark;
+    const facts = document.querySelector(".pile-facts");
+    if (facts) {
+      facts.textContent = (d.pile_type || "") + " · Ø " + fixed(d.diameter_mm, 0) + " mm" +
+        (d.cap ? " · cap " + d.cap : "") + " · load " + grouped(data.load_kn) + " kN · ";
+      const prog = document.createElement("span"); prog.id = "progress-now";
+      const ver = document.createElement("span"); ver.id = "version-now";
+      facts.append(prog, document.createTextNode(" · version "), ver,
+                   document.createTextNode(" · from the copy kept on this tablet"));
+    }
+    const enc = encodeURIComponent;
+    Object.keys(data.urls || {}).forEach((k) => {
+      data.urls[k] = data.urls[k].replace("/piles/" + enc(shellMark) + "/", "/piles/" + enc(data.mark) + "/");
+    });
+    byId("photo-list").textContent = "";
+    if (!data.result) {
+      const verdict = byId("verdict");
+      verdict.className = "verdict none";
+      verdict.textContent = "Not checked yet: save the record to run the recheck.";
+      delete verdict.dataset.verdict;
+      byId("checks-rows").textContent = "";
+    }
+  }
+
+  // A save kept on this tablet reached the server (or met a conflict) while this page is open.
+  window.addEventListener("toeline:sent", (event) => {
+    const d = event.detail || {};
+    if (!d.item || d.item.kind !== "record" || d.item.mark !== data.mark ||
+        Number(d.item.project_id) !== Number(data.project_id) || !d.body) return;
+    data.version = d.body.version;
+    data.result = d.body;
+    byId("version-now").textContent = d.body.version;
+    status("Sent from this tablet and saved as version " + d.body.version + ".", "ok");
+    showResult(d.body);
+  });
+  window.addEventListener("toeline:conflict", (event) => {
+    const d = event.detail || {};
+    if (d.item && d.item.mark === data.mark && Number(d.item.project_id) === Number(data.project_id)) {
+      status("Kept on this tablet: the record changed on the server meanwhile. Compare both in the outbox above and choose.", "short");
+    }
+  });
+
   if ((urlMark && urlMark !== data.mark) || navigator.onLine === false) fromBundle();
 
   window.ToelineRig = { data: () => data, fill: fill, live: live, gather: gather, showResult: showResult };

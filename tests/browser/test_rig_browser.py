@@ -199,3 +199,28 @@ def test_a_signed_record_is_changed_only_as_an_amendment_with_a_reason(page, rig
     versions = office.get(f"/api/v1/projects/{pid}/piles/R1/history").get_json()["versions"]
     assert [v["version"] for v in versions] == [1, 2]
     assert versions[1]["record"]["notes"] == "cage lifted 50 mm during the pour"
+
+
+def test_minutes_from_batching_live_and_errors_beside_their_fields(page, rig_site):
+    base, pid = rig_site["base"], rig_site["own"]
+    login(page, base, rig_site["inspector"])
+    page.goto(f"{base}/projects/{pid}/rig/R1")
+    page.click("#add-delivery")
+    row = page.locator("#delivery-rows tr").first
+    row.locator("[data-key=batched_at]").fill("2026-03-02T09:00")
+    row.locator("[data-key=discharged_at]").fill("2026-03-02T10:45")
+    expect(row.locator("output")).to_have_text("SHORT: 105 min (at most 90)")
+    row.locator("[data-key=discharged_at]").fill("2026-03-02T10:10")
+    expect(row.locator("output")).to_have_text("OK: 70 min (at most 90)")
+
+    page.click("#add-stratum")  # left blank: not sent
+    page.click("#add-stratum")
+    bad = page.locator("#strata-rows tr").nth(1)
+    bad.locator("[data-key=from_depth]").fill("6")
+    bad.locator("[data-key=to_depth]").fill("4")
+    page.fill("#f-inclination", "2")
+    page.click("#save")
+    expect(page.locator("#save-status")).to_contain_text("Not saved")
+    expect(bad.locator("[data-key=to_depth]")).to_have_class(re.compile(r"\binvalid\b"))
+    expect(page.locator("[data-error-for=inclination]")).to_contain_text("between 0 and 1")
+    expect(page.locator("#version-now")).to_have_text("0")  # nothing saved
