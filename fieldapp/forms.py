@@ -117,6 +117,18 @@ class MeasureField(Field):
             raise StopValidation(f"{self.label.text} must be {self.range_text}, got {fmt_number(self.data)}")
 
 
+class ChoiceField(SelectField):
+    """A select whose refusal names the field and the values allowed."""
+
+    def pre_validate(self, form):
+        try:
+            super().pre_validate(form)
+        except ValidationError:
+            allowed = [c.value for c in (self.choices or []) if getattr(c, "value", "")]
+            shown = ", ".join(allowed[:12]) + (" ..." if len(allowed) > 12 else "")
+            raise ValidationError(f"{self.label.text} must be one of: {shown}") from None
+
+
 def not_formula(form, field):
     """WTForms validator: a mark or name must not start like a spreadsheet formula."""
     problem = label_problem(field.label.text, (field.data or "").strip())
@@ -137,8 +149,8 @@ class PileForm(FlaskForm):
     mark = StringField("Mark", [DataRequired(message=f"Mark is required (1 to {MARK_MAX} characters)"),
                                 Length(max=MARK_MAX, message=f"Mark must be 1 to {MARK_MAX} characters"),
                                 not_formula])
-    cap_id = SelectField("Cap", coerce=str, validate_choice=True)
-    ground_model_id = SelectField("Ground model", coerce=str)
+    cap_id = ChoiceField("Cap", coerce=str, validate_choice=True)
+    ground_model_id = ChoiceField("Ground model", coerce=str)
 
     def validate(self, extra_validators=None):
         """Field checks, then toe below cut-off and the other cross-field checks, then PileDesign."""
@@ -184,13 +196,13 @@ class PileForm(FlaskForm):
 
 for _spec in FIELDS:
     if _spec.name == "pile_type":
-        _field = SelectField(_spec.label, choices=options((t, PILE_TYPE_LABELS[t]) for t in PILE_TYPES),
+        _field = ChoiceField(_spec.label, choices=options((t, PILE_TYPE_LABELS[t]) for t in PILE_TYPES),
                              default=_spec.default)
     elif _spec.name == "head":
-        _field = SelectField(_spec.label, choices=options([("free", "free"), ("fixed", "fixed (in cap)")]),
+        _field = ChoiceField(_spec.label, choices=options([("free", "free"), ("fixed", "fixed (in cap)")]),
                              default=_spec.default)
     elif _spec.name == "exposure_class":
-        _field = SelectField(_spec.label, coerce=str, default=_spec.default)
+        _field = ChoiceField(_spec.label, coerce=str, default=_spec.default)
     else:
         _field = MeasureField(_spec.label, lo=_spec.lo, hi=_spec.hi, unit=_spec.unit,
                               required=_spec.required, integer=_spec.kind == "int",
@@ -239,7 +251,7 @@ class LayerForm(Form):
     top_level_m = MeasureField("Top level", lo=-LEVEL_LIMIT_M, hi=LEVEL_LIMIT_M, unit="m", required=False)
     bottom_level_m = MeasureField("Bottom level", lo=-LEVEL_LIMIT_M, hi=LEVEL_LIMIT_M, unit="m",
                                   required=False)
-    material = SelectField("Material", choices=options([("", "—")] + [(m, MATERIAL_LABELS[m]) for m in MATERIALS]))
+    material = ChoiceField("Material", choices=options([("", "—")] + [(m, MATERIAL_LABELS[m]) for m in MATERIALS]))
     unit_weight_kn_m3 = MeasureField("Unit weight", lo=10, hi=30, unit="kN/m³", required=False)
     cu_kpa = MeasureField("c_u at top", lo=0, hi=2000, unit="kPa", required=False)
     cu_bottom_kpa = MeasureField("c_u at bottom", lo=0, hi=2000, unit="kPa", required=False)
@@ -444,7 +456,7 @@ for _f in dc_fields(Rules):
         continue
     _meta = Rules.field_meta(_f.name)
     if _meta.get("choices"):
-        _rule_field = SelectField(_meta["label"], choices=options((c, c) for c in _meta["choices"]))
+        _rule_field = ChoiceField(_meta["label"], choices=options((c, c) for c in _meta["choices"]))
     else:
         _rule_field = MeasureField(_meta["label"], lo=_meta.get("min"), hi=_meta.get("max"),
                                    unit=_meta.get("unit") or "")

@@ -179,6 +179,8 @@ def test_pile_form_messages_name_the_field_and_the_range(app, client, engineer, 
         ({"fc_mpa": "5"}, "Concrete strength f_c must be 10 to 120 MPa, got 5"),
         ({"cage_length_m": "30"}, "cage_length_m (30 m) must be at most the pile length 14 m"),
         ({"mark": "P1"}, "mark: another pile is already called 'P1'"),
+        ({"pile_type": "pier"}, "Pile type must be one of: bored, cfa, driven, screw"),
+        ({"exposure_class": "XZ9"}, "Exposure class must be one of: X0, XC1, XC2"),
     ]
     for change, message in cases:
         response = client.post(f"/projects/{pid}/piles/new", data=dict(data, csrf_token=engineer, **change))
