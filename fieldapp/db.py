@@ -65,7 +65,8 @@ def write(conn: sqlite3.Connection | None = None) -> Iterator[sqlite3.Connection
     try:
         yield conn
     except BaseException:
-        conn.execute("ROLLBACK")
+        if conn.in_transaction:  # SQLite rolls back by itself on some errors (e.g. disk full)
+            conn.execute("ROLLBACK")
         raise
     else:
         conn.execute("COMMIT")
@@ -134,9 +135,56 @@ def schema_version(conn: sqlite3.Connection) -> int:
     return conn.execute("PRAGMA user_version").fetchone()[0]
 
 
+READ_ONLY_MESSAGE = ("The server's data folder is read-only: nothing was saved. Whoever runs the server "
+                     "must make the data folder writable; then save again (the tablet keeps unsent saves "
+                     "in its outbox).")
+DISK_FULL_MESSAGE = ("The server's disk is full: nothing was saved. Whoever runs the server must free disk "
+                     "space; then save again (the tablet keeps unsent saves in its outbox).")
+
+
+def storage_fault(exc: BaseException) -> tuple[int, str] | None:
+    """(status, message) when ``exc`` is the disk refusing a write: 503 read-only, 507 full."""
+    import errno
+
+    if isinstance(exc, sqlite3.OperationalError):
+        text = str(exc).lower()
+        if "readonly" in text or "read-only" in text:
+            return 503, READ_ONLY_MESSAGE
+        if "disk is full" in text:
+            return 507, DISK_FULL_MESSAGE
+    elif isinstance(exc, OSError):
+        if exc.errno == errno.EROFS:
+            return 503, READ_ONLY_MESSAGE
+        if exc.errno in (errno.ENOSPC, errno.EDQUOT):
+            return 507, DISK_FULL_MESSAGE
+    return None
+
+
+def _storage_error(exc):
+    """A clear answer when the disk refuses a write (JSON under /api/, a page elsewhere)."""
+    from flask import jsonify, render_template_string, request
+
+    fault = storage_fault(exc)
+    if fault is None:
+        raise exc
+    status, message = fault
+    current_app.logger.error("write refused by the disk: %s", exc)
+    if request.path.startswith("/api/"):
+        response = jsonify({"error": message})
+        response.status_code = status
+        return response
+    page = render_template_string(
+        '{% extends "base.html" %}{% block title %}Not saved{% endblock %}'
+        '{% block content %}<h1>Not saved</h1><p class="error" role="alert">{{ message }}</p>'
+        '<p><a class="btn" href="{{ url_for(\'auth.index\') }}">Projects</a></p>{% endblock %}', message=message)
+    return page, status
+
+
 def init_app(app) -> None:
     """Register teardown and apply migrations once at start."""
     app.teardown_appcontext(close_db)
+    app.register_error_handler(sqlite3.OperationalError, _storage_error)
+    app.register_error_handler(OSError, _storage_error)
     conn = connect(app.config["DATABASE"])
     try:
         migrate(conn)
