@@ -43,7 +43,7 @@ from fieldapp.record import data
 PAGE = A4
 MARGIN = 16 * mm
 FOOTER_H = 24 * mm
-SCHEDULE_ROWS_PER_TABLE = 40
+SCHEDULE_ROWS_PER_TABLE = 60
 MAX_THUMBS = 6
 STATUS_RGB = {k: colors.HexColor(v) for k, v in drawings.STATUS_COLOURS.items()}
 
@@ -164,6 +164,78 @@ class Tick(Flowable):
         self._callback()
 
 
+class FigureFlowable(Flowable):
+    """A ``drawings.Figure`` drawn straight onto the page with canvas calls, scaled to
+    ``width`` points (the same scene as the SVG on screen; faster than reportlab's shape graph)."""
+
+    def __init__(self, fig: drawings.Figure, width: float):
+        super().__init__()
+        self.fig = fig
+        self.width = width
+        self.height = fig.height * width / fig.width
+
+    def wrap(self, available_width, available_height):
+        return self.width, self.height
+
+    def draw(self):
+        c, f, top = self.canv, self.width / self.fig.width, self.height
+        regular, bold, _ = _fonts()
+        colour_cache: dict[str, Any] = {}
+
+        def col(value):
+            if value not in colour_cache:
+                colour_cache[value] = colors.HexColor(value)
+            return colour_cache[value]
+
+        def pen(stroke, width, dash):
+            c.setStrokeColor(col(stroke))
+            c.setLineWidth(width * f)
+            c.setDash([d * f for d in dash] if dash else [])
+
+        c.saveState()
+        for s in self.fig.items:
+            if isinstance(s, drawings.Line):
+                pen(s.stroke, s.width, s.dash)
+                c.line(s.x1 * f, top - s.y1 * f, s.x2 * f, top - s.y2 * f)
+            elif isinstance(s, drawings.Polyline):
+                if len(s.points) < 2:
+                    continue
+                path = c.beginPath()
+                path.moveTo(s.points[0][0] * f, top - s.points[0][1] * f)
+                for x, y in s.points[1:]:
+                    path.lineTo(x * f, top - y * f)
+                if s.fill:
+                    path.close()
+                    c.setFillColor(col(s.fill))
+                if s.stroke:
+                    pen(s.stroke, s.width, s.dash)
+                c.drawPath(path, stroke=1 if s.stroke else 0, fill=1 if s.fill else 0)
+            elif isinstance(s, drawings.Circle):
+                if s.stroke:
+                    pen(s.stroke, s.width, s.dash)
+                if s.fill:
+                    c.setFillColor(col(s.fill))
+                c.circle(s.cx * f, top - s.cy * f, s.r * f, stroke=1 if s.stroke else 0, fill=1 if s.fill else 0)
+            elif isinstance(s, drawings.Rect):
+                if s.stroke:
+                    pen(s.stroke, s.width, None)
+                if s.fill:
+                    c.setFillColor(col(s.fill))
+                c.rect(s.x * f, top - (s.y + s.h) * f, s.w * f, s.h * f, stroke=1 if s.stroke else 0,
+                       fill=1 if s.fill else 0)
+            elif isinstance(s, drawings.Text):
+                c.setFillColor(col(s.fill))
+                c.setFont(bold if s.bold else regular, s.size * f)
+                x, y = s.x * f, top - s.y * f
+                if s.anchor == "middle":
+                    c.drawCentredString(x, y, s.text)
+                elif s.anchor == "end":
+                    c.drawRightString(x, y, s.text)
+                else:
+                    c.drawString(x, y, s.text)
+        c.restoreState()
+
+
 @dataclass(frozen=True)
 class BuildResult:
     """What a build produced."""
@@ -207,11 +279,13 @@ def build(conn: sqlite3.Connection, project_id: int, out_path: str | Path, *, ph
         if progress:
             progress(done[0], total)
 
+    width = PAGE[0] - 2 * MARGIN
+    caution = Paragraph(_bold_caution(), st.caution)     # wrapped once, drawn on every page
+    _, caution_h = caution.wrap(width, FOOTER_H)
+
     def footer(canvas, doc):
         canvas.saveState()
-        width = PAGE[0] - 2 * MARGIN
-        text = Paragraph(_bold_caution(), st.caution)
-        _, h = text.wrap(width, FOOTER_H)
+        text, h = caution, caution_h
         canvas.setStrokeColor(colors.HexColor("#b35c00"))
         canvas.setLineWidth(0.8)
         canvas.line(MARGIN, FOOTER_H - 3 * mm, MARGIN + width, FOOTER_H - 3 * mm)
@@ -226,7 +300,7 @@ def build(conn: sqlite3.Connection, project_id: int, out_path: str | Path, *, ph
         yield from _cover(st, project, when, rows, head, chain)
         yield PageBreak()
         yield Paragraph("Site plan", st.h2)
-        yield drawings.to_reportlab(data.site_plan(statuses, currents, 760, 1000), width=PAGE[0] - 2 * MARGIN)
+        yield FigureFlowable(data.site_plan(statuses, currents, 760, 1000), PAGE[0] - 2 * MARGIN)
         yield PageBreak()
         yield from _schedule(st, rows)
         for status in statuses:
@@ -305,7 +379,7 @@ SCHEDULE_HEAD = ["Pile", "Cap", "Toe design / as built (m)", "Dia. design / as b
 
 def _schedule(st: Styles, rows: list[data.ScheduleRow]) -> Iterator[Flowable]:
     yield Paragraph("As-built schedule", st.h2)
-    widths = [14 * mm, 11 * mm, 21 * mm, 20 * mm, 11 * mm, 19 * mm, 22 * mm, 21 * mm, 22 * mm, 17 * mm]
+    widths = [14 * mm, 11 * mm, 21 * mm, 20 * mm, 11 * mm, 19 * mm, 24 * mm, 21 * mm, 20 * mm, 17 * mm]
     head = [Paragraph(f"<b>{h}</b>", st.tiny) for h in SCHEDULE_HEAD]
 
     def cell(text: str, room: int):
@@ -409,7 +483,7 @@ def _checks_table(st: Styles, checks: list[dict]) -> Table:
         if result == "short":
             style.append(("TEXTCOLOR", (1, i), (1, i), STATUS_RGB["needs"]))
             style.append(("BACKGROUND", (1, i), (1, i), colors.HexColor("#fde8ea")))
-    table = Table(cells, colWidths=[26 * mm, 15 * mm, 20 * mm, 20 * mm, 11 * mm, 86 * mm], repeatRows=1)
+    table = Table(cells, colWidths=[26 * mm, 17 * mm, 20 * mm, 20 * mm, 11 * mm, 84 * mm], repeatRows=1)
     table.setStyle(TableStyle(style))
     return table
 
@@ -442,8 +516,8 @@ def _pile_sheet(st: Styles, sheet: data.PileSheet, photo_dir) -> Iterator[Flowab
     thumbs = _thumbs(st, sheet, photo_dir)
     if sheet.figures:
         width = (PAGE[0] - 2 * MARGIN - 4 * mm) / 2
-        pics = [drawings.to_reportlab(sheet.figures[k], width=width) for k in ("capacity", "interaction")]
-        plan = drawings.to_reportlab(sheet.figures["plan"], width=width)
+        pics = [FigureFlowable(sheet.figures[k], width) for k in ("capacity", "interaction")]
+        plan = FigureFlowable(sheet.figures["plan"], width)
         right = [Paragraph("Photos", st.h3), thumbs] if thumbs is not None else [Paragraph("No photos.", st.small)]
         rows = []
         for cells in ([pics[0], pics[1]], [plan, right]):
