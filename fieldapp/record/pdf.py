@@ -587,7 +587,7 @@ def _register(st: Styles, items: list[review_q.NonConformance]) -> Iterator[Flow
                       Paragraph(decision if not n.disposition else _t(decision), st.tiny),
                       Paragraph(_t(n.reasons), st.tiny),
                       Paragraph(f"{_t(n.signer or '')} {_t((n.signed_at or '')[:10])}", st.tiny)])
-    table = Table(cells, colWidths=[16 * mm, 9 * mm, 20 * mm, 38 * mm, 28 * mm, 47 * mm, 20 * mm], repeatRows=1)
+    table = Table(cells, colWidths=[16 * mm, 10 * mm, 20 * mm, 38 * mm, 28 * mm, 46 * mm, 20 * mm], repeatRows=1)
     table.setStyle(TableStyle([("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
                                ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor("#eef1ee")),
                                ("VALIGN", (0, 0), (-1, -1), "TOP")]))
