@@ -194,7 +194,14 @@ _SELECT = ("SELECT " + ", ".join(_JOINED.get(n, f"p.{n}") for n in _ROW_NAMES) +
 
 
 def _pile(row) -> PileRow | None:
-    return PileRow(*row) if row else None
+    if not row:
+        return None
+    # The frozen dataclass's __init__ sets each of the 29 fields through object.__setattr__;
+    # filling the instance dict directly gives the same object at a fraction of the cost
+    # (a 2,000-pile list made 58,000 such calls).
+    pile = object.__new__(PileRow)
+    pile.__dict__.update(zip(_ROW_NAMES, row, strict=True))
+    return pile
 
 
 # Sort keys offered on the Piles screen: name -> key on a PileRow.
