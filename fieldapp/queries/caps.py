@@ -7,6 +7,7 @@ over: design positions from the schedule, and as-built positions where the calle
 from __future__ import annotations
 
 import math
+import functools
 import re
 import sqlite3
 from dataclasses import dataclass
@@ -46,6 +47,7 @@ def _cap(conn: sqlite3.Connection, row) -> CapRow | None:
                   row["my_knm"], row["hx_kn"], row["hy_kn"], tuple(sorted(marks, key=natural_key)))
 
 
+@functools.lru_cache(maxsize=65536)  # marks repeat on every list of the schedule
 def natural_key(text: str) -> tuple:
     """Sort key that puts P2 before P10."""
     return tuple(int(p) if p.isdigit() else p.lower() for p in re.split(r"(\d+)", text or ""))
