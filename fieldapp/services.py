@@ -45,6 +45,7 @@ from __future__ import annotations
 import math
 import re
 import sqlite3
+import uuid
 from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any, Callable
@@ -717,6 +718,8 @@ def save_record(conn: sqlite3.Connection, project_id: int, pile_row, user, clien
         if base > stored:
             raise RecordInvalid({"base_version": f"must be at most the stored version {stored}, got {base}"})
         version = stored + 1
+        previous = records.current(conn, pile_row.id)
+        previous = previous.record if previous else {}
         records.insert(conn, project_id=project_id, pile_id=pile_row.id, version=version,
                        client_id=client_id, record=clean, progress=clean["progress"],
                        verdict=verdict.verdict, worst_utilisation=worst, checks=checks,
@@ -726,6 +729,8 @@ def save_record(conn: sqlite3.Connection, project_id: int, pile_row, user, clien
                                worst_utilisation=worst, version=version)
         for hook in AFTER_SAVE:
             hook(conn, pile_row, version, amendment)
+        if pile_row.cap_id is not None and _position(previous) != _position(clean):
+            recheck_cap_mates(conn, project_id, pile_row, user)
         short = [c["code"] for c in checks if c["ok"] is False]
         audit.append(conn, project_id, user.label, "record saved", pile_row.mark,
                      {"version": version, "verdict": verdict.verdict, "short": short,
@@ -733,3 +738,62 @@ def save_record(conn: sqlite3.Connection, project_id: int, pile_row, user, clien
                       "rules_version": inputs.rules_version,
                       **({"amendment": amendment} if amendment else {})})
     return SaveOutcome(records.get_version(conn, pile_row.id, version), True)
+
+
+def _position(record: dict[str, Any]) -> tuple[float, float] | None:
+    """The as-built (easting, northing) of a record, or None when not both surveyed."""
+    if record.get("easting") is None or record.get("northing") is None:
+        return None
+    return (float(record["easting"]), float(record["northing"]))
+
+
+def recheck_cap_mates(conn: sqlite3.Connection, project_id: int, pile_row, user) -> list[str]:
+    """Recheck the other recorded piles of a cap after one pile's as-built position changed.
+
+    A rigid cap shares its loads over the as-built positions, so moving one pile changes every
+    pile's share (``group_share``). Each cap-mate with a record is rechecked on the new
+    positions; where any check's status (ok, short, not checked) or the verdict changes, a new
+    version of its record is stored with the same as-built data and a reason naming the pile
+    that moved. A mate that was signed is thereby no longer signed at its current version: the
+    change needs the engineer's sign-off like any amendment. Runs inside the caller's
+    transaction. Returns the marks given a new version.
+    """
+    from fieldapp.queries import piles as piles_q
+
+    changed = []
+    reason = (f"rechecked because the as-built position of {pile_row.mark} changed the shares "
+              f"of cap {pile_row.cap_mark}")
+    for mate in piles_q.list_piles(conn, project_id, cap=pile_row.cap_mark):
+        if mate.id == pile_row.id or mate.current_version == 0:
+            continue
+        current = records.current(conn, mate.id)
+        if current is None:
+            continue
+        inputs = load_inputs(conn, project_id, mate, current.record)
+        try:
+            verdict = recheck_pile(conn, project_id, mate, current.record, inputs)
+        except ValueError:
+            continue  # its own save succeeded before; leave it for the engineer to see as it is
+        checks = [c.to_dict() for c in verdict.short_first()]
+        before = {c["code"]: c["ok"] for c in current.checks}
+        after = {c["code"]: c["ok"] for c in checks}
+        if before == after and verdict.verdict == current.verdict:
+            continue
+        version = current.version + 1
+        amendment = {"reason": reason}
+        records.insert(conn, project_id=project_id, pile_id=mate.id, version=version,
+                       client_id=f"server-{uuid.uuid4()}", record=current.record,
+                       progress=current.progress, verdict=verdict.verdict,
+                       worst_utilisation=verdict.worst_utilisation, checks=checks,
+                       borrowed=borrowed_list(verdict, inputs, current.record),
+                       notes=list(verdict.notes) + [reason], rules_version=inputs.rules_version,
+                       created_by=user.id)
+        records.set_pile_state(conn, mate.id, progress=current.progress, verdict=verdict.verdict,
+                               worst_utilisation=verdict.worst_utilisation, version=version)
+        for hook in AFTER_SAVE:
+            hook(conn, mate, version, amendment)
+        audit.append(conn, project_id, user.label, "record rechecked", mate.mark,
+                     {"version": version, "verdict": verdict.verdict, "reason": reason,
+                      "short": [c["code"] for c in checks if c["ok"] is False]})
+        changed.append(mate.mark)
+    return changed
