@@ -310,3 +310,38 @@ def test_bad_input_types_are_refused_by_name():
         recheck(DESIGN, ASBUILT, {"layers": []})
     with pytest.raises(ValueError, match="design"):
         recheck({"mark": "P1"}, ASBUILT, GROUND)
+
+
+maybe = st.one_of  # readability below: a value or None
+
+
+@settings(max_examples=150, deadline=None, database=None)
+@given(platform=maybe(st.none(), st.floats(-2.0, 2.0)), depth=maybe(st.none(), st.floats(0.0, 45.0)),
+       dia=maybe(st.none(), st.floats(150.0, 1500.0)), cutoff=maybe(st.none(), st.floats(-4.0, 1.0)),
+       cover=maybe(st.none(), st.floats(0.0, 250.0)), fc=maybe(st.none(), st.floats(5.0, 90.0)),
+       volume=maybe(st.none(), st.floats(0.0, 40.0)), incl=maybe(st.none(), st.floats(0.0, 0.5)),
+       strata=st.lists(st.tuples(st.floats(0.0, 30.0), st.floats(0.1, 5.0),
+                                 st.sampled_from(["cohesive", "cohesionless", "ignore"])),
+                       max_size=3),
+       head=st.sampled_from(["free", "fixed"]), shear=st.floats(0.0, 400.0))
+def test_any_record_gives_fifteen_checks_and_never_raises(platform, depth, dia, cutoff, cover, fc,
+                                                          volume, incl, strata, head, shear):
+    # The web app rechecks on every save: whatever was recorded, the answer is 15 checks, each
+    # ok, short or not checked with a reason, and "meets design" only when all are ok.
+    logged = []
+    for top, thick, material in sorted(strata):
+        if logged and top < logged[-1].to_depth:
+            continue
+        logged.append(S(top, top + thick, material))
+    record = AsBuilt(platform_level=platform, measured_depth=depth, diameter_mm=dia,
+                     cutoff_level=cutoff, cover_mm=cover, concrete_mpa=fc,
+                     concrete_volume_m3=volume, inclination=incl, strata=tuple(logged))
+    v = recheck(replace(DESIGN, head=head, shear=shear), record, GROUND)
+    assert [c.code for c in v.checks] == list(CHECK_CODES)
+    for c in v.checks:
+        assert c.ok in (True, False, None) and c.reason
+        if c.ok is None:
+            assert c.utilisation is None
+        else:
+            assert c.utilisation is not None and c.utilisation >= 0.0
+    assert (v.verdict == MEETS_DESIGN) == all(c.ok is True for c in v.checks)
