@@ -208,3 +208,17 @@ def test_pentadiagonal_solver_matches_a_dense_solve():
     rhs = rng.random((n, 2))
     x = solve_pentadiagonal(np.diag(a), e, f, rhs)
     assert np.allclose(a @ x, rhs, atol=1e-10)
+
+
+def test_long_pile_in_sand_matches_matlock_and_reese():
+    # Matlock & Reese (1960), k = n_h z, long free-head pile (z_max = L/T >= 5): y0 = 2.435 H T^3/EI
+    # + 1.623 M T^2/EI, M_max = 0.772 H T, T = (EI/n_h)^(1/5). Coefficients from memory (also
+    # tabulated in Reese & Van Impe); held to 1 %.
+    nh = 5000.0
+    t = (EI / nh) ** 0.2
+    assert 30.0 / t > 5
+    shear = winkler_pile(EI, 30.0, lambda z: nh * z, shear=100.0, nodes=400)
+    moment = winkler_pile(EI, 30.0, lambda z: nh * z, shear=0.0, moment=50.0, nodes=400)
+    assert shear.head_deflection == pytest.approx(2.435 * 100.0 * t ** 3 / EI, rel=0.01)
+    assert moment.head_deflection == pytest.approx(1.623 * 50.0 * t ** 2 / EI, rel=0.01)
+    assert shear.max_moment == pytest.approx(0.772 * 100.0 * t, rel=0.01)
