@@ -6,17 +6,22 @@ Run alone with ``python -m tests.perf --only web``. What it does:
    functions (``sitegen.build_site``), one inspector login per tablet;
 2. starts ``toeline serve`` (waitress, as in ``deploy/``) on 127.0.0.1 as a subprocess;
 3. a pool of 16 client threads, each a ``requests`` session signed in as its own inspector,
-   runs a mixed load for 30 s, each tablet pausing 0.5 to 1.5 s (uniform; a person at a tablet,
-   as in locust's ``wait_time``) between requests: 30 % record PUT (the server validates, rechecks and stores a new
-   version; each tablet writes only its own piles and keeps their versions, so no save is a
-   conflict), 40 % pile list (``GET /api/v1/projects/<id>/piles``, all 2,000 piles), 30 % pile
+   runs a mixed load for 30 s, each tablet pausing 0.5 to 1.5 s (uniform; a person at a
+   tablet, as in locust's ``wait_time``) between requests: 30 % record PUT of a pile of the
+   tablet's own caps (as at one rig; the server validates, rechecks the pile and its recorded
+   cap-mates and stores a new version), 40 % pile list (``GET /api/v1/projects/<id>/piles``, all 2,000 piles), 30 % pile
    page (the rig page of one pile when the app has one, else its rig data
    ``GET /api/v1/projects/<id>/piles/<mark>``);
 4. then, with the same pool on the same server and no pauses: 15 s of the same mix (the busy
    figures: every tablet firing back to back, the server saturated), 10 s of PUTs only and 10 s
    of ``/healthz`` only: ``put_vs_healthz`` is PUTs per second over /healthz requests per second.
 
-Every answer other than 200, every timeout and every exception counts in ``web_errors``.
+Every answer other than 200, every timeout and every exception counts in ``web_errors``, with
+one exception: a 409 conflict whose ``server.version`` is newer than the tablet's copy is the
+right answer when the server itself gave a cap-mate a new version (its shares changed when
+another pile of the cap was surveyed out of position); the tablet then sends its save again
+on the server's version with the same client id, as the outbox's "keep mine" does
+(``static/outbox.js``), and ``web_conflicts`` counts these.
 Loops are bounded by time and by count. Latencies are wall times seen by the client.
 """
 
@@ -77,13 +82,16 @@ class Tablet:
         self.base = base
         self.project = site.project_id
         self.session = sitegen.login(base, site.inspectors[index])
-        self.mine = site.piles[index::TABLETS]
+        caps = sorted({p.cap for p in site.piles})
+        own = set(caps[index::TABLETS])
+        self.mine = [p for p in site.piles if p.cap in own]
         self.everyone = site.piles
         self.versions: dict[str, int] = {}
         self.rng = random.Random(1000 + index)
         self.page_template = page_template
         self.times: dict[str, list[float]] = {}
         self.errors: list[str] = []
+        self.conflicts = 0
 
     def work(self, kinds: tuple[str, ...], seconds: float, start: threading.Event,
              pause: tuple[float, float] | None = None) -> None:
@@ -108,20 +116,38 @@ class Tablet:
         t0 = time.perf_counter()
         r = self.session.request(method, url, timeout=TIMEOUT_S, **kw)
         self.times[kind].append((time.perf_counter() - t0) * 1e3)
+        if r.status_code == 409 and kind == "put" and self._server_moved_on(r):
+            return r
         if r.status_code != 200:
             self.errors.append(f"{kind} {url}: HTTP {r.status_code} {r.text[:200]}")
         return r
 
+    def _server_moved_on(self, r: requests.Response) -> bool:
+        """A 409 because the server gave the pile a newer version than the tablet's copy."""
+        try:
+            body = r.json()
+        except ValueError:
+            return False
+        version = (body.get("server") or {}).get("version")
+        return body.get("error") == "conflict" and isinstance(version, int)
+
     def _put(self) -> None:
         pile = self.rng.choice(self.mine)
-        base_version = self.versions.get(pile.mark)
         record = sitegen.record_for(pile, self.rng, short=self.rng.random() < 0.2,
                                     progress=self.rng.choice(("concreted", "logged")))
-        r = self._timed("put", "PUT", f"{self.base}/api/v1/projects/{self.project}/piles/{pile.mark}/record",
-                        json={"client_id": str(uuid.uuid4()), "base_version": base_version,
-                              "record": record})
-        if r.status_code == 200:
-            self.versions[pile.mark] = r.json()["version"]
+        url = f"{self.base}/api/v1/projects/{self.project}/piles/{pile.mark}/record"
+        client_id = str(uuid.uuid4())
+        for _ in range(2):  # the second time only after a conflict (module docstring)
+            body = {"client_id": client_id, "base_version": self.versions.get(pile.mark),
+                    "record": record}
+            r = self._timed("put", "PUT", url, json=body)
+            if r.status_code == 200:
+                self.versions[pile.mark] = r.json()["version"]
+                return
+            if r.status_code != 409 or not self._server_moved_on(r):
+                return
+            self.conflicts += 1
+            self.versions[pile.mark] = r.json()["server"]["version"]
 
     def _list(self) -> None:
         self._timed("list", "GET", f"{self.base}/api/v1/projects/{self.project}/piles")
@@ -196,6 +222,7 @@ def run() -> dict:
         "healthz_per_s": health_rate,
         "put_vs_healthz": put_rate / health_rate if health_rate else float("nan"),
         "web_errors": len(errors),
+        "web_conflicts": sum(t.conflicts for t in tablets),
     }
 
 

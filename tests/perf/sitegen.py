@@ -50,6 +50,7 @@ class PileFacts:
     exposure_class: str
     cage_length: float
     fc_mpa: float
+    cap: str = ""
 
 
 @dataclass
@@ -115,7 +116,7 @@ def build_site(data_dir: str | Path, n_piles: int, n_inspectors: int = 1) -> Sit
                         facts.append(PileFacts(
                             row["mark"], tops[values["ground_index"]], row["cutoff_level_m"],
                             row["toe_level_m"], row["diameter_mm"], row["easting_m"], row["northing_m"],
-                            row["exposure_class"], row["cage_length_m"], row["fc_mpa"]))
+                            row["exposure_class"], row["cage_length_m"], row["fc_mpa"], str(cap_id)))
                 rep += 1
             audit.append(conn, pid, "benchmark", "benchmark project created", "bench",
                          {"piles": len(facts)})
