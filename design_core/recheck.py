@@ -241,7 +241,10 @@ def _curve_key(pile: _Pile):
 
 def _curve_grid(ground: GroundModel, top: float, toes: Iterable[float]) -> np.ndarray:
     """Toe levels of a drawn curve: every CURVE_STEP_M from just below the top down to
-    CURVE_BELOW_TOE_M below the deepest toe (or the bottom of the ground model), and the toes."""
+    CURVE_BELOW_TOE_M below the deepest toe (or the bottom of the ground model), and the toes.
+
+    The toes given are the as-built and the design toes, so the curve shows both and reaches
+    the toe a short pile would need (``required_toe_level``) in all but extreme cases."""
     start = min(top, ground.top) - 0.1
     pts = [t for t in toes if ground.bottom - LEVEL_TOL_M <= t < min(top, ground.top)]
     bottom = max(ground.bottom, min(pts) - CURVE_BELOW_TOE_M) if pts else ground.bottom
@@ -327,7 +330,8 @@ def _axial(pile: _Pile, curve, cache: _Cache | None):
         key = _curve_key(pile)
         found = cache.curves.get(key)
         if found is None or pile.toe not in found[1]:
-            toes = [pile.toe] if found is None else list(found[0].toe_levels) + [pile.toe]
+            toes = [pile.toe, pile.design.toe_level] + (
+                [] if found is None else list(found[0].toe_levels))
             found = _build_curve(pile, toes)
             cache.curves[key] = found
             if isinstance(key[0], tuple):
@@ -338,7 +342,7 @@ def _axial(pile: _Pile, curve, cache: _Cache | None):
         got = _read_curve(curve, pile, None)
         if got is not None:
             return (curve,) + got
-    built, index = _build_curve(pile, [pile.toe])
+    built, index = _build_curve(pile, [pile.toe, pile.design.toe_level])
     return (built,) + _read_curve(built, pile, index)
 
 
@@ -964,9 +968,9 @@ def recheck_project(items: Iterable, rules: Rules | None = None,
         if _toe_problem(pile) is None:
             key = _curve_key(pile)
             if key in wanted:
-                wanted[key][1].append(pile.toe)
+                wanted[key][1].extend((pile.toe, pile.design.toe_level))
             else:
-                wanted[key] = (pile, [pile.toe])
+                wanted[key] = (pile, [pile.toe, pile.design.toe_level])
     for key, (pile, toes) in wanted.items():
         try:
             cache.curves[key] = _build_curve(pile, toes)
