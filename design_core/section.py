@@ -24,6 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -68,7 +69,7 @@ class InteractionCurve:
             return 0.0
         return float(np.interp(n_kN, self.n, self.m))
 
-    @property
+    @cached_property
     def pure_bending(self) -> float:
         """Nominal moment capacity at N = 0 (kNm)."""
         return self.moment_capacity(0.0)
