@@ -27,7 +27,7 @@ from flask_wtf import FlaskForm
 
 from fieldapp import db, drawings
 from fieldapp.auth import login_required, project_or_404
-from fieldapp.queries import audit
+from fieldapp.queries import audit, users
 from fieldapp.queries import review as review_q
 from fieldapp.record import export
 
@@ -74,7 +74,7 @@ def _fresh(conn, project_id: int, job: review_q.RecordJob | None) -> review_q.Re
     return job
 
 
-def run_build(app, project_id: int, job_id: int, actor: str = "record") -> None:
+def run_build(app, project_id: int, job_id: int) -> None:
     """The worker: build the PDF on its own connection, storing progress as it goes."""
     from fieldapp.record import pdf
 
@@ -99,7 +99,9 @@ def run_build(app, project_id: int, job_id: int, actor: str = "record") -> None:
                                 head_hash=result.head_hash, size_bytes=out.stat().st_size,
                                 finished_at=audit.now_iso())
             # the chain itself remembers which head hash a record printed
-            audit.append(conn, project_id, actor, "record built", "record",
+            job = review_q.get_job(conn, project_id, job_id)
+            starter = users.by_id(conn, job.started_by) if job and job.started_by else None
+            audit.append(conn, project_id, starter.label if starter else "record", "record built", "record",
                          {"job": job_id, "head_hash": result.head_hash, "pages": result.pages,
                           "piles": result.piles})
     except Exception as exc:  # the build failed: say so on the screen, never leave it "running"
@@ -127,8 +129,7 @@ def start_build(project_id: int, user_id: int | None) -> tuple[review_q.RecordJo
         job_id = review_q.create_job(conn, project_id, user_id)
     _records_dir()
     app = current_app._get_current_object()
-    actor = g.user.label if g.get("user") else "record"
-    thread = threading.Thread(target=run_build, args=(app, project_id, job_id, actor), name=f"record-{job_id}",
+    thread = threading.Thread(target=run_build, args=(app, project_id, job_id), name=f"record-{job_id}",
                               daemon=True)
     with _lock:
         _running[job_id] = thread
