@@ -10,10 +10,12 @@ from __future__ import annotations
 from flask import Blueprint, abort, flash, g, redirect, render_template, request, url_for
 from markupsafe import Markup, escape
 
-from fieldapp import db
+from fieldapp import db, services
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.forms import GroundModelForm, fmt_number
+from fieldapp.piles import flash_rechecked
 from fieldapp.queries import audit, ground
+from fieldapp.queries import piles as piles_q
 from fieldapp.queries.ground import GroundModelRow, LayerRow
 
 bp = Blueprint("ground", __name__)
@@ -171,15 +173,15 @@ def _save(project, model: GroundModelRow | None):
                 audit.append(conn, project.id, g.user.email, "ground model saved", name, {
                     "ground_model_id": model_id, "new": model is None,
                     "water_level_m": form.water_level_m.data, "layers": layers})
+                moved = services.recheck_stored(
+                    conn, project.id, piles_q.list_piles(conn, project.id, ground_model_id=model_id),
+                    g.user, f"rechecked on ground model {name} as changed")
         except ValueError as exc:
             form.name.errors.append(str(exc))
         else:
             used = ground.piles_using(conn, model_id)
             flash(f"Ground model {name} saved." + (f" {used} pile(s) use it." if used else ""))
-            checked = ground.piles_checked_on(conn, model_id)
-            if checked:
-                flash(f"{checked} pile(s) on this ground model were checked against the model as it was: "
-                      "their verdicts stand until their records are checked again.")
+            flash_rechecked(moved)
             return redirect(url_for("ground.list_models", project_id=project.id, _anchor=f"model-{model_id}"))
     status = 400 if request.method == "POST" and "more_rows" not in request.form else 200
     return render_template("ground_form.html", project=project, form=form, model=model), status

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 from flask import Blueprint, Response, abort, flash, g, redirect, render_template, request, url_for
 
-from fieldapp import db
+from fieldapp import db, services
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.forms import CapForm, ImportForm, PileForm, options
 from fieldapp.queries import audit, caps, ground, piles, projects
@@ -152,13 +152,13 @@ def edit_pile(project_id, pile_id):
             with db.write(conn):
                 piles.save_pile(conn, project_id, values, pile_id)
                 audit.append(conn, project_id, _actor(), "pile changed", values["mark"], {"changed": changed})
+                moved = services.recheck_stored(conn, project_id, _pile_and_cap_mates(conn, project_id, pile_id),
+                                                g.user, f"rechecked on the changed design of {values['mark']}")
         except ValueError as exc:
             form.mark.errors.append(str(exc))
         else:
             flash(f"Pile {values['mark']} saved." if changed else f"Pile {values['mark']}: nothing changed.")
-            if changed and row.verdict:
-                flash(f"Pile {values['mark']} was checked against its old design: its verdict "
-                      f"({row.verdict}) stands until its record is checked again.")
+            flash_rechecked(moved)
             return redirect(url_for("piles.list_piles", project_id=project_id, _anchor=f"pile-{pile_id}"))
     return render_template("piles_form.html", project=project, form=form, pile=row), 200 if (
         request.method == "GET") else 400
@@ -262,10 +262,14 @@ def edit_cap(project_id, cap_id):
                 caps.save_cap(conn, project_id, form.mark.data, form.loads(), cap_id)
                 audit.append(conn, project_id, _actor(), "cap changed", form.mark.data.strip(),
                              {"before": {k: getattr(cap, k) for k in caps.CAP_LOAD_FIELDS}, "after": form.loads()})
+                moved = services.recheck_stored(
+                    conn, project_id, piles.list_piles(conn, project_id, cap=form.mark.data.strip()),
+                    g.user, f"rechecked on the changed loads of cap {form.mark.data.strip()}")
         except ValueError as exc:
             form.mark.errors.append(str(exc))
         else:
             flash(f"Cap {form.mark.data.strip()} saved.")
+            flash_rechecked(moved)
             return redirect(url_for("piles.list_caps", project_id=project_id))
     return render_template("caps_form.html", project=project, form=form, cap=cap), 200 if (
         request.method == "GET") else 400
@@ -276,3 +280,18 @@ def _form_messages_filter(form):
     from fieldapp.forms import form_messages
 
     return form_messages(form)
+
+
+def _pile_and_cap_mates(conn, project_id: int, pile_id: int) -> list:
+    """The pile as now stored and, when it stands in a cap, the cap's other piles."""
+    row = piles.get_pile_by_id(conn, project_id, pile_id)
+    if row.cap_mark:
+        return piles.list_piles(conn, project_id, cap=row.cap_mark)
+    return [row]
+
+
+def flash_rechecked(marks: list[str]) -> None:
+    """Say which recorded piles changed status on the recheck that followed a change."""
+    if marks:
+        flash(f"Rechecked: {len(marks)} recorded pile(s) changed status and have a new version to "
+              f"review: {', '.join(marks[:20])}{' ...' if len(marks) > 20 else ''}.")

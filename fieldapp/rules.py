@@ -9,9 +9,10 @@ from __future__ import annotations
 
 from flask import Blueprint, flash, g, redirect, render_template, request, url_for
 
-from fieldapp import db
+from fieldapp import db, services
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.forms import RULE_NAMES, RulesForm
+from fieldapp.piles import flash_rechecked
 from fieldapp.queries import audit, piles, projects
 
 bp = Blueprint("rules", __name__)
@@ -79,11 +80,10 @@ def edit(project_id):
                 audit.append(conn, project_id, g.user.email, "rules changed", f"version {version}",
                              {"version": version, "from_version": current.version, "note": note,
                               "changed": changed})
+                moved = services.recheck_stored(conn, project_id, piles.list_piles(conn, project_id),
+                                                g.user, f"rechecked with rules version {version}")
             flash(f"Rules saved as version {version}.")
-            checked = piles.count_checked(conn, project_id)
-            if checked:
-                flash(f"{checked} pile(s) were checked with an earlier version: their verdicts stand until "
-                      "their records are checked again.")
+            flash_rechecked(moved)
             return redirect(url_for("rules.show", project_id=project_id))
     status = 400 if request.method == "POST" else 200
     return render_template("rules_form.html", project=project, form=form, current=current,

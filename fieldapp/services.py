@@ -751,20 +751,33 @@ def recheck_cap_mates(conn: sqlite3.Connection, project_id: int, pile_row, user)
     """Recheck the other recorded piles of a cap after one pile's as-built position changed.
 
     A rigid cap shares its loads over the as-built positions, so moving one pile changes every
-    pile's share (``group_share``). Each cap-mate with a record is rechecked on the new
-    positions; where any check's status (ok, short, not checked) or the verdict changes, a new
-    version of its record is stored with the same as-built data and a reason naming the pile
-    that moved. A mate that was signed is thereby no longer signed at its current version: the
-    change needs the engineer's sign-off like any amendment. Runs inside the caller's
-    transaction. Returns the marks given a new version.
+    pile's share (``group_share``). See :func:`recheck_stored` for what is stored. Runs inside
+    the caller's transaction. Returns the marks given a new version.
     """
     from fieldapp.queries import piles as piles_q
 
-    changed = []
     reason = (f"rechecked because the as-built position of {pile_row.mark} changed the shares "
               f"of cap {pile_row.cap_mark}")
-    for mate in piles_q.list_piles(conn, project_id, cap=pile_row.cap_mark):
-        if mate.id == pile_row.id or mate.current_version == 0:
+    mates = [m for m in piles_q.list_piles(conn, project_id, cap=pile_row.cap_mark)
+             if m.id != pile_row.id]
+    return recheck_stored(conn, project_id, mates, user, reason)
+
+
+def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, reason: str) -> list[str]:
+    """Recheck recorded piles after something they rest on changed (a cap-mate's position, the
+    rules, a ground model, the design).
+
+    Each pile with a record is rechecked on its current record. Where any check's status (ok,
+    short, not checked) or the verdict changes, a new version of its record is stored with the
+    same as-built data, the new checks and ``reason`` in its notes, and an audit entry "record
+    rechecked". A pile that was signed is thereby no longer signed at its current version: the
+    change needs the engineer's sign-off like any amendment. Piles whose statuses stay the same
+    keep their version (their stored figures are those of their own save). Runs inside the
+    caller's transaction. Returns the marks given a new version.
+    """
+    changed = []
+    for mate in pile_rows:
+        if mate.current_version == 0:
             continue
         current = records.current(conn, mate.id)
         if current is None:
@@ -773,26 +786,25 @@ def recheck_cap_mates(conn: sqlite3.Connection, project_id: int, pile_row, user)
         try:
             verdict = recheck_pile(conn, project_id, mate, current.record, inputs)
         except ValueError:
-            continue  # its own save succeeded before; leave it for the engineer to see as it is
+            continue  # its own save succeeded before; the engineer sees it as it was
         checks = [c.to_dict() for c in verdict.short_first()]
         before = {c["code"]: c["ok"] for c in current.checks}
         after = {c["code"]: c["ok"] for c in checks}
         if before == after and verdict.verdict == current.verdict:
             continue
         version = current.version + 1
-        amendment = {"reason": reason}
         records.insert(conn, project_id=project_id, pile_id=mate.id, version=version,
                        client_id=f"server-{uuid.uuid4()}", record=current.record,
                        progress=current.progress, verdict=verdict.verdict,
                        worst_utilisation=verdict.worst_utilisation, checks=checks,
                        borrowed=borrowed_list(verdict, inputs, current.record),
                        notes=list(verdict.notes) + [reason], rules_version=inputs.rules_version,
-                       created_by=user.id)
+                       created_by=user.id if user else None)
         records.set_pile_state(conn, mate.id, progress=current.progress, verdict=verdict.verdict,
                                worst_utilisation=verdict.worst_utilisation, version=version)
         for hook in AFTER_SAVE:
-            hook(conn, mate, version, amendment)
-        audit.append(conn, project_id, user.label, "record rechecked", mate.mark,
+            hook(conn, mate, version, {"reason": reason})
+        audit.append(conn, project_id, user.label if user else "system", "record rechecked", mate.mark,
                      {"version": version, "verdict": verdict.verdict, "reason": reason,
                       "short": [c["code"] for c in checks if c["ok"] is False]})
         changed.append(mate.mark)

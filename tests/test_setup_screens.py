@@ -451,16 +451,48 @@ def test_marks_that_look_like_formulas_are_refused(app, client, engineer, setup)
     assert any("Cap mark must not start with '+'" in e for e in errors(response))
 
 
-def test_changing_what_a_verdict_rests_on_says_so(app, client, engineer, setup):
-    pid = setup["own"]
+def _record_toe(app, project_id, mark, toe_level):
+    """Save a boring record for the pile whose as-built toe is ``toe_level`` (platform 10 m)."""
+    from fieldapp import services
+    from fieldapp.queries import users as users_q
+
     with app.app_context():
         conn = db.get_db()
-        with db.write(conn):
-            conn.execute("UPDATE piles SET progress = 'logged', verdict = 'meets design' WHERE mark = 'P1'")
-    data = as_form(pile_values("P1", setup["gm"], setup["cap"], easting_m=99.0, compression_kn=1500))
-    page = client.post(f"/projects/{pid}/piles/{setup['p1']}/edit", data=dict(data, csrf_token=engineer),
+        user = users_q.by_email(conn, "inspector@test.example")
+        row = piles.get_pile(conn, project_id, mark)
+        services.save_record(conn, project_id, row, user, f"c-{mark}", None,
+                             {"progress": "boring", "platform_level": 10.0,
+                              "measured_depth": 10.0 - toe_level})
+
+
+def _axial(app, project_id, mark):
+    from fieldapp.queries import records
+
+    with app.app_context():
+        conn = db.get_db()
+        row = piles.get_pile(conn, project_id, mark)
+        current = records.current(conn, row.id)
+        return row.current_version, next(c for c in current.checks if c["code"] == "axial_compression")
+
+
+def test_changing_what_a_verdict_rests_on_rechecks_recorded_piles(app, client, engineer, setup):
+    pid = setup["own"]
+    light = as_form(pile_values("P10", setup["gm"], None, pile_type="cfa", diameter_mm=450.0,
+                                toe_level_m=-2.0, compression_kn=100))
+    client.post(f"/projects/{pid}/piles/{setup['p10']}/edit", data=dict(light, csrf_token=engineer))
+    _record_toe(app, pid, "P10", -2.0)  # CFA pile standing alone, as designed, lightly loaded
+    version, axial = _axial(app, pid, "P10")
+    assert axial["ok"] is True
+    # a design load far beyond the pile's resistance: the recheck makes a new version, short
+    data = as_form(pile_values("P10", setup["gm"], None, pile_type="cfa", diameter_mm=450.0,
+                               toe_level_m=-2.0, compression_kn=20000))
+    page = client.post(f"/projects/{pid}/piles/{setup['p10']}/edit", data=dict(data, csrf_token=engineer),
                        follow_redirects=True).get_data(as_text=True)
-    assert "Pile P1 was checked against its old design: its verdict (meets design) stands" in unescape(page)
+    assert "Rechecked: 1 recorded pile(s) changed status" in page and "P10" in page
+    version2, axial2 = _axial(app, pid, "P10")
+    assert version2 == version + 1 and axial2["ok"] is False
+    # a rules change that leaves every status as it was makes no new version
     page = client.post(f"/projects/{pid}/rules/edit", data=dict(rules_form(Rules(), fs_base=3.5), csrf_token=engineer),
                        follow_redirects=True).get_data(as_text=True)
-    assert "1 pile(s) were checked with an earlier version" in page
+    assert "Rechecked" not in page
+    assert _axial(app, pid, "P10")[0] == version2
