@@ -194,6 +194,7 @@ def import_file(project_id):
         result = import_schedule(conn, project_id, upload.read(), upload.filename or "", _actor())
         if result.ok:
             flash(result.summary())
+            flash_rechecked(result.rechecked)
             return redirect(url_for("piles.list_piles", project_id=project_id))
         status = 422
     return render_template("piles_import.html", project=project, form=form, result=result,

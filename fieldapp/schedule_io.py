@@ -81,6 +81,7 @@ class ImportResult:
     updated: int = 0
     caps_created: list[str] = field(default_factory=list)
     rows: int = 0
+    rechecked: list[str] = field(default_factory=list)  # recorded piles whose status changed
 
     @property
     def ok(self) -> bool:
@@ -312,6 +313,11 @@ def import_schedule(conn, project_id: int, data: bytes, filename: str, actor: st
         audit.append(conn, project_id, actor, "schedule imported", Path(filename).name, {
             "rows": result.rows, "created": result.created, "updated": result.updated,
             "caps_created": result.caps_created, "sha256": hashlib.sha256(data).hexdigest()})
+        from fieldapp import services
+
+        result.rechecked = services.recheck_stored(conn, project_id, piles.list_piles(conn, project_id),
+                                                   None, f"rechecked on the schedule imported from "
+                                                   f"{Path(filename).name}", actor)
     return result
 
 

@@ -763,7 +763,8 @@ def recheck_cap_mates(conn: sqlite3.Connection, project_id: int, pile_row, user)
     return recheck_stored(conn, project_id, mates, user, reason)
 
 
-def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, reason: str) -> list[str]:
+def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, reason: str,
+                   actor: str | None = None) -> list[str]:
     """Recheck recorded piles after something they rest on changed (a cap-mate's position, the
     rules, a ground model, the design).
 
@@ -773,9 +774,11 @@ def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, r
     rechecked". A pile that was signed is thereby no longer signed at its current version: the
     change needs the engineer's sign-off like any amendment. Piles whose statuses stay the same
     keep their version (their stored figures are those of their own save). Runs inside the
-    caller's transaction. Returns the marks given a new version.
+    caller's transaction. ``user`` may be None (the command line); ``actor`` then names who
+    acted in the audit trail. Returns the marks given a new version.
     """
     changed = []
+    actor = actor or (user.label if user else "system")
     for mate in pile_rows:
         if mate.current_version == 0:
             continue
@@ -804,7 +807,7 @@ def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, r
                                worst_utilisation=verdict.worst_utilisation, version=version)
         for hook in AFTER_SAVE:
             hook(conn, mate, version, {"reason": reason})
-        audit.append(conn, project_id, user.label if user else "system", "record rechecked", mate.mark,
+        audit.append(conn, project_id, actor, "record rechecked", mate.mark,
                      {"version": version, "verdict": verdict.verdict, "reason": reason,
                       "short": [c["code"] for c in checks if c["ok"] is False]})
         changed.append(mate.mark)
