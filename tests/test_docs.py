@@ -33,3 +33,10 @@ def test_readme_rules_table_is_up_to_date():
     assert block.strip() == rules_markdown_table().strip(), (
         "README's rules table is stale: regenerate it with "
         "python -c 'from design_core.rules import rules_markdown_table as t; print(t())'")
+
+
+def test_every_schedule_column_is_in_the_readme():
+    from fieldapp.schedule_io import COLUMNS
+
+    missing = [c for c in COLUMNS if f"| `{c}` |" not in README]
+    assert missing == []
