@@ -81,9 +81,22 @@
     else el.value = String(value);
   }
 
+  // Values the inspector confirms rather than measures start at the design value on a pile with
+  // no record yet. Measured values (depth, debris, cover, position, inclination, cut-off) stay
+  // blank: an unmeasured figure must never pass a check by default.
+  const PREFILL_FROM_DESIGN = ["diameter_mm", "cage_length", "exposure_class", "concrete_mpa"];
+
   function fill() {
     const rec = data.record || {};
     fieldInputs().forEach((el) => setValue(el, rec[el.dataset.path]));
+    if (!data.version && data.design) {
+      PREFILL_FROM_DESIGN.forEach((key) => {
+        const el = document.querySelector('[data-path="' + key + '"]');
+        if (el && el.value === "" && data.design[key] !== null && data.design[key] !== undefined) {
+          el.value = String(data.design[key]);
+        }
+      });
+    }
     const progress = byId("f-progress");
     if (progress) progress.value = rec.progress && rec.progress !== "planned" ? rec.progress : "boring";
     document.querySelectorAll("[data-design]").forEach((el) => {
