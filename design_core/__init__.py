@@ -6,6 +6,7 @@ the trade uses mm, and then the name says so (``cover_mm``).
 
 from design_core.checks import CHECK_CODES, MEETS_DESIGN, NEEDS_ENGINEER, Check, PileVerdict
 from design_core.rules import ExposureClass, RuleDoc, Rules
+from design_core.inputs import AsBuilt, CapGroup, CapPile, Delivery, PileDesign, StratumMet
 from design_core.ground import Borrowed, GroundModel, Layer, ground_from_strata
 from design_core.axial import (
     AxialResult, CapacityCurve, ShaftRow, TensionResult, alpha_api, alpha_factor, axial_capacity,
@@ -23,6 +24,7 @@ from design_core.recheck import ProjectItem, recheck, recheck_project
 __all__ = [
     "CHECK_CODES", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict",
     "ExposureClass", "RuleDoc", "Rules",
+    "AsBuilt", "CapGroup", "CapPile", "Delivery", "PileDesign", "StratumMet",
     "Borrowed", "GroundModel", "Layer", "ground_from_strata",
     "AxialResult", "CapacityCurve", "ShaftRow", "TensionResult", "alpha_api", "alpha_factor",
     "axial_capacity", "beta_factor", "capacity_curve", "earth_pressure_k", "n_q", "pile_area",

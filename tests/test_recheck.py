@@ -345,3 +345,16 @@ def test_any_record_gives_fifteen_checks_and_never_raises(platform, depth, dia, 
         else:
             assert c.utilisation is not None and c.utilisation >= 0.0
     assert (v.verdict == MEETS_DESIGN) == all(c.ok is True for c in v.checks)
+
+
+def test_cfa_pile_has_no_open_base_so_debris_is_not_asked_for():
+    # PRODUCT.md section 4: a CFA pile has no open base to inspect; its concrete volume takes
+    # that place. A bored pile with no debris figure stays "not checked" (never ok).
+    from design_core import AsBuilt, GroundModel, Layer, PileDesign, recheck
+
+    ground = GroundModel([Layer(10.0, -20.0, "cohesive", 19.0, cu=80.0)], water_level=8.0)
+    asbuilt = AsBuilt(platform_level=10.0, measured_depth=12.0)
+    cfa = recheck(PileDesign("C1", 0.6, 9.0, -2.0, pile_type="cfa"), asbuilt, ground)
+    bored = recheck(PileDesign("B1", 0.6, 9.0, -2.0, pile_type="bored"), asbuilt, ground)
+    assert cfa.check("base_debris").ok is True and "no open base" in cfa.check("base_debris").reason
+    assert bored.check("base_debris").ok is None
