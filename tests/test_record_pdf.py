@@ -58,8 +58,9 @@ def test_pdf_holds_every_mark_verdict_head_hash_and_the_caution(app, client, aut
     pages = _pages(out)
     assert len(pages) == result.pages
     text = " ".join(pages)
-    for mark in ("P1", "P2", "P3", "S1"):
-        assert f"Pile {mark}" in text
+    for mark in ("P1", "P2", "S1"):
+        assert f"Pile {mark}" in text                     # a sheet for every recorded pile
+    assert "P3 C1 78.00 / —" in text                      # the unrecorded pile in the schedule
     assert "meets design" in text and "needs engineer" in text and "not recorded" in text
     assert head in text
     caution = _words(CAUTION)
@@ -94,11 +95,13 @@ def test_demo_project_record_renders(tmp_path):
         pid = projects.all_projects(conn)[0].id
         marks = [p.mark for p in piles_q.list_piles(conn, pid)]
         verdicts = {s.verdict for s in review_q.pile_statuses(conn, pid) if s.verdict}
+        data_marks_recorded = [s.mark for s in review_q.pile_statuses(conn, pid) if s.current_version]
         out = tmp_path / "demo.pdf"
         result = pdf.build(conn, pid, out, photo_dir=app.config["PHOTO_DIR"])
     assert result.piles == len(marks) > 10
     text = " ".join(_pages(out))
-    assert all(f"Pile {m}" in text for m in marks)
+    recorded = set(data_marks_recorded)
+    assert all(f"Pile {m}" in text for m in recorded) and all(f" {m} " in text for m in marks)
     assert verdicts == {"meets design", "needs engineer"} and all(v in text for v in verdicts)
     if shutil.which("pdftoppm"):
         subprocess.run(["pdftoppm", "-png", "-r", "30", "-f", "1", "-l", "3", str(out), str(tmp_path / "pg")],
