@@ -12,7 +12,7 @@ Routes
 * ``POST /api/v1/projects/<id>/piles/<mark>/signoff`` with ``{"disposition", "reasons",
   "password"}`` (optional ``"version"``, ``"remedial_of"``) -> ``200 {"signed": true,
   "record_hash", "version", "disposition"}``; inspector or viewer 403; wrong password 403 and
-  nothing signed; 422 ``{"errors": {...}}`` for a bad disposition or missing reasons; 409 when
+  nothing signed (after LOGIN_MAX_FAILURES wrong ones in LOGIN_WINDOW_S: 429); 422 ``{"errors": {...}}`` for a bad disposition or missing reasons; 409 when
   there is nothing to sign or it is signed already.
 
 Sign-off rules: engineers (and admins) only, with the password typed again; reasons are required
@@ -28,7 +28,7 @@ import hashlib
 import sqlite3
 from dataclasses import dataclass
 
-from flask import Blueprint, abort, flash, g, jsonify, redirect, render_template, request, url_for
+from flask import Blueprint, abort, current_app, flash, g, jsonify, redirect, render_template, request, url_for
 from flask_wtf import FlaskForm
 from wtforms import HiddenField, PasswordField, SelectField, TextAreaField
 from wtforms.fields.choices import SelectChoice
@@ -175,14 +175,30 @@ def sign_pile(conn: sqlite3.Connection, project_id: int, pile_row, user, disposi
         return review_q.signoff_by_id(conn, project_id, signoff_id)
 
 
+class TooManyTries(Exception):
+    """Too many wrong passwords at sign-off in the login window."""
+
+
 def _password_ok(conn: sqlite3.Connection, project_id: int, subject: str, password) -> bool:
-    """Check the re-entered password; a wrong one is written to the audit trail."""
+    """Check the re-entered password; a wrong one is written to the audit trail. After
+    LOGIN_MAX_FAILURES wrong ones within LOGIN_WINDOW_S, raises TooManyTries (even for the right
+    password), so a left-open session cannot be used to guess it."""
+    key = f"sign-off:{g.user.email}"
+    if users.recent_failures(conn, key, current_app.config["LOGIN_WINDOW_S"]) >= \
+            current_app.config["LOGIN_MAX_FAILURES"]:
+        raise TooManyTries()
     if isinstance(password, str) and password and users.verify_password(conn, g.user.id, password):
         return True
     with db.write(conn):
+        users.record_login_failure(conn, key)
         audit.append(conn, project_id, g.user.label, "sign-off refused", subject,
                      {"why": "wrong password"})
     return False
+
+
+def _wait_message() -> str:
+    return (f"Too many wrong passwords: wait {current_app.config['LOGIN_WINDOW_S'] // 60} minutes "
+            "and try again. Nothing was signed.")
 
 
 def _pile_status_or_404(conn, project_id: int, mark: str) -> review_q.PileStatus:
@@ -214,8 +230,11 @@ def api_signoff(project_id: int, mark: str):
     body = request.get_json(silent=True)
     if not isinstance(body, dict):
         return _json(400, {"error": "the body must be a JSON object with disposition, reasons, password"})
-    if not _password_ok(conn, project.id, mark, body.get("password")):
-        return _json(403, {"error": "wrong password", "signed": False})
+    try:
+        if not _password_ok(conn, project.id, mark, body.get("password")):
+            return _json(403, {"error": "wrong password", "signed": False})
+    except TooManyTries:
+        return _json(429, {"error": "too many tries", "message": _wait_message(), "signed": False})
     version = body.get("version")
     if version is not None and (isinstance(version, bool) or not isinstance(version, int)):
         return _json(422, {"errors": {"version": "must be the whole number of the version you reviewed"}})
@@ -330,9 +349,13 @@ def signoff(project_id: int, mark: str):
     form = _signoff_form(conn, project.id, status, request.form)
     if not form.validate():
         return _pile_page(project, status, form, 400)
-    if not _password_ok(conn, project.id, mark, form.password.data):
-        form.password.errors = ["the password is wrong: nothing was signed"]
-        return _pile_page(project, status, form, 403)
+    try:
+        if not _password_ok(conn, project.id, mark, form.password.data):
+            form.password.errors = ["the password is wrong: nothing was signed"]
+            return _pile_page(project, status, form, 403)
+    except TooManyTries:
+        form.password.errors = [_wait_message()]
+        return _pile_page(project, status, form, 429)
     from fieldapp.queries import piles as piles_q
     pile_row = piles_q.get_pile(conn, project.id, mark)
     try:
@@ -369,8 +392,12 @@ def batch(project_id: int):
     if not picked:
         flash("Tick the piles to sign.")
         return redirect(url_for("review.queue", project_id=project.id))
-    if not _password_ok(conn, project.id, "batch", form.password.data):
-        flash("The password is wrong: nothing was signed.")
+    try:
+        if not _password_ok(conn, project.id, "batch", form.password.data):
+            flash("The password is wrong: nothing was signed.")
+            return redirect(url_for("review.queue", project_id=project.id))
+    except TooManyTries:
+        flash(_wait_message())
         return redirect(url_for("review.queue", project_id=project.id))
     from fieldapp.queries import piles as piles_q
     clear = {(s.mark, s.current_version) for s in review_q.clear_unsigned(conn, project.id)}

@@ -143,6 +143,15 @@ def test_wrong_password_is_403_and_nothing_signed(app, client, auth, people, sit
     assert "sign-off refused" in _actions(app, site["pid"])
 
 
+def test_repeated_wrong_passwords_are_slowed_down(app, client, auth, people, site):
+    auth.login(people["engineer"])
+    for _ in range(app.config["LOGIN_MAX_FAILURES"]):
+        assert _sign(client, auth, site["pid"], "P1", password="guess").status_code == 403
+    blocked = _sign(client, auth, site["pid"], "P1")          # even the right password now waits
+    assert blocked.status_code == 429 and blocked.get_json()["signed"] is False
+    assert _signoff(app, site["pid"], "P1")[0] is None
+
+
 def test_unknown_pile_is_404(client, auth, people, site):
     auth.login(people["engineer"])
     assert _sign(client, auth, site["pid"], "NOPE").status_code == 404
