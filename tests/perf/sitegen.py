@@ -20,6 +20,7 @@ from __future__ import annotations
 import functools
 import math
 import os
+import random
 import re
 import socket
 import subprocess
@@ -127,7 +128,10 @@ def record_for(pile: PileFacts, rng, short: bool = False, progress: str = "logge
     """A complete as-built record of ``pile`` (every check can be made), with small deviations.
 
     ``short``: the bore stops 1.5 m above the design toe (the recheck then needs the engineer).
+    The as-built position is the same in every record of a pile (it is surveyed once), so a
+    later save of the pile does not move it again.
     """
+    spot = random.Random(pile.mark)
     toe = pile.toe_level + (1.5 if short else -0.1 * rng.random())
     depth = round(pile.platform_level - toe, 3)
     d = pile.diameter_mm / 1000.0
@@ -137,8 +141,8 @@ def record_for(pile: PileFacts, rng, short: bool = False, progress: str = "logge
         "boring_end": "2026-03-02T10:30", "platform_level": pile.platform_level,
         "measured_depth": depth, "diameter_mm": pile.diameter_mm, "cutoff_level": pile.cutoff_level,
         "casting_level": round(pile.cutoff_level + 0.5, 3),
-        "easting": round(pile.easting + rng.uniform(-0.04, 0.04), 3),
-        "northing": round(pile.northing + rng.uniform(-0.04, 0.04), 3),
+        "easting": round(pile.easting + spot.uniform(-0.04, 0.04), 3),
+        "northing": round(pile.northing + spot.uniform(-0.04, 0.04), 3),
         "inclination": round(rng.uniform(0.0, 0.01), 4), "base_check": "sounding",
         "debris_mm": round(rng.uniform(0, 40)), "cage_length": pile.cage_length,
         "cover_mm": 80, "exposure_class": pile.exposure_class, "concrete_mpa": pile.fc_mpa,
