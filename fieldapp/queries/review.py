@@ -333,12 +333,12 @@ def _job(row) -> RecordJob | None:
     return RecordJob(**{k: row[k] for k in row.keys()}) if row else None
 
 
-def create_job(conn: sqlite3.Connection, project_id: int, user_id: int | None) -> int:
-    """A new queued build; returns its id."""
+def create_job(conn: sqlite3.Connection, project_id: int, user_id: int | None, total: int = 0) -> int:
+    """A new queued build of ``total`` piles; returns its id."""
     now = now_iso()
     cur = conn.execute(
-        "INSERT INTO record_jobs (project_id, status, started_by, created_at, updated_at) "
-        "VALUES (?, 'queued', ?, ?, ?)", (project_id, user_id, now, now))
+        "INSERT INTO record_jobs (project_id, status, total, started_by, created_at, updated_at) "
+        "VALUES (?, 'queued', ?, ?, ?, ?)", (project_id, total, user_id, now, now))
     return cur.lastrowid
 
 

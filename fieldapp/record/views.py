@@ -126,7 +126,7 @@ def start_build(project_id: int, user_id: int | None) -> tuple[review_q.RecordJo
             return active, False
         if active is not None:
             review_q.mark_job_stalled(conn, active.id, "the server stopped during the build: start it again")
-        job_id = review_q.create_job(conn, project_id, user_id)
+        job_id = review_q.create_job(conn, project_id, user_id, len(review_q.pile_statuses(conn, project_id)))
     _records_dir()
     app = current_app._get_current_object()
     thread = threading.Thread(target=run_build, args=(app, project_id, job_id), name=f"record-{job_id}",
