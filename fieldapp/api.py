@@ -30,8 +30,8 @@ try:
 except ModuleNotFoundError:  # optional speed-up of the pile list; jsonify does the same job
     orjson = None
 from flask import Blueprint, abort, current_app, g, jsonify, request, send_file
-from flask_wtf.csrf import generate_csrf
-from werkzeug.exceptions import RequestEntityTooLarge
+from flask_wtf.csrf import CSRFError, generate_csrf
+from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
 from fieldapp import db, photos, services
 from fieldapp.auth import _deny, login_required, project_or_404
@@ -54,6 +54,20 @@ def _error(status: int, **body):
 @bp.errorhandler(RequestEntityTooLarge)
 def _too_large(_exc):
     return _error(413, error=f"the upload is over {photos.MAX_BYTES // 1_048_576} MB")
+
+
+@bp.app_errorhandler(HTTPException)
+def _api_http_error(exc: HTTPException):
+    """Under /api/ an unknown address or a wrong method is answered in JSON, like every other
+    API error; elsewhere Flask's own page. A CSRF refusal stays Flask's HTML 400: the outbox
+    (static/outbox.js) keeps and retries a save refused that way, with a fresh token."""
+    if not request.path.startswith("/api/") or exc.code is None or isinstance(exc, CSRFError):
+        return exc
+    response = _error(exc.code, error="not found" if exc.code == 404 else (exc.description or exc.name))
+    for name, value in exc.get_headers():
+        if name in ("Allow", "Retry-After"):
+            response.headers[name] = value
+    return response
 
 
 def _pile_or_404(project_id: int, mark: str):
