@@ -20,6 +20,7 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 from flask import Flask
 from flask_wtf.csrf import CSRFProtect
+from werkzeug.routing import IntegerConverter
 
 ROOT = Path(__file__).resolve().parent.parent
 csrf = CSRFProtect()
@@ -29,6 +30,15 @@ CAUTION = (
     "record, whose judgement and the local codes govern. Every default (factors, tolerances, "
     "tables) must be checked against the project's specification."
 )
+
+
+class SqliteInt(IntegerConverter):
+    """``<int:...>`` in addresses, limited to SQLite's 64-bit integers: a larger id is a 404, not
+    an OverflowError (500) in the query."""
+
+    def __init__(self, map, *args, **kwargs):  # noqa: A002 - werkzeug's signature
+        kwargs.setdefault("max", 2**63 - 1)
+        super().__init__(map, *args, **kwargs)
 
 
 def default_data_dir() -> Path:
@@ -57,6 +67,7 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
 
     app = Flask(__name__, template_folder=str(ROOT / "templates"),
                 static_folder=str(ROOT / "static"), static_url_path="/static")
+    app.url_map.converters["int"] = SqliteInt  # before any route: ids beyond SQLite's range are 404
     app.config.from_mapping(
         DATA_DIR=str(data),
         DATABASE=str(data / "toeline.sqlite3"),
@@ -79,12 +90,11 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
     if test_config:
         app.config.update(test_config)
 
-    from fieldapp import db
+    from fieldapp import auth, db, security
+    app.before_request(_refuse_malformed_form)  # before CSRF, which fails on it with a 500
     db.init_app(app)
+    auth.init_app(app)  # before CSRF: an API write with no session is a 401, not a CSRF 400
     csrf.init_app(app)
-
-    from fieldapp import auth, security
-    auth.init_app(app)
     security.init_app(app)
 
     @app.context_processor
@@ -98,6 +108,16 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
     for module in ("piles", "ground", "rules", "rig", "review", "record.views", "api", "offline", "openapi"):
         _register_if_present(app, module)
     return app
+
+
+def _refuse_malformed_form():
+    """400 for a form field whose name werkzeug cannot read (a line break in a multipart header
+    makes the name None, and Flask-WTF's CSRF check then raises)."""
+    from flask import abort, request
+
+    if request.mimetype in ("multipart/form-data", "application/x-www-form-urlencoded") and (
+            None in request.form or None in request.files):
+        abort(400, "a form field has a name that cannot be read")
 
 
 def _register_if_present(app: Flask, name: str) -> None:
