@@ -39,6 +39,8 @@ def init_app(app) -> None:
 def _load_user() -> None:
     user_id = session.get("user_id")
     g.user = users.by_id(db.get_db(), user_id) if user_id else None
+    if g.user is None and _is_api() and request.method not in ("GET", "HEAD", "OPTIONS"):
+        _deny(401)  # every API write needs a signed-in user; say so before the CSRF check
 
 
 def _is_api() -> bool:
