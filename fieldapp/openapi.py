@@ -58,13 +58,28 @@ def _json(schema: dict, description: str) -> dict:
 
 PROJECT_ID = {"name": "project_id", "in": "path", "required": True, "schema": {"type": "integer"}}
 MARK = {"name": "mark", "in": "path", "required": True, "schema": {"type": "string"}}
+CLIENT_ID = {"type": "string", "pattern": "^[A-Za-z0-9_-]{8,64}$",
+             "description": "an id the client made for this write (a UUID): a repeat returns the first answer"}
+# 400: a body that is not what the operation takes (JSON), or a missing/stale CSRF token
+# (Flask-WTF's HTML page: the tablet's outbox keeps such a save and retries it with a new token).
+BAD_REQUEST = {"description": "not a JSON object, or no valid CSRF token (then an HTML page)",
+               "content": {"application/json": {"schema": {"type": "object", "properties": {
+                   "error": {"type": "string"}}}},
+                           "text/html": {"schema": {"type": "string"}}}}
+# The disk refused the write (fieldapp.db.storage_fault): nothing was saved; try again later.
+STORAGE = {"503": {"description": "the data folder is read-only: nothing saved",
+                   "content": {"application/json": {"schema": {"type": "object", "properties": {
+                       "error": {"type": "string"}}}}}},
+           "507": {"description": "the server's disk is full: nothing saved",
+                   "content": {"application/json": {"schema": {"type": "object", "properties": {
+                       "error": {"type": "string"}}}}}}}
 DENIED = {"401": _json(ERROR, "not signed in"), "403": _json(ERROR, "role may not do this"),
           "404": _json(ERROR, "no such project or pile for this user")}
 
 
 def document() -> dict:
     """The OpenAPI document as a dict."""
-    return {
+    doc = {
         "openapi": "3.1.0",
         "info": {"title": "Toeline API", "version": "1",
                  "description": "Session cookie from POST /login; writes need the X-CSRFToken "
@@ -98,7 +113,7 @@ def document() -> dict:
                 "security": [{"session": [], "csrf": []}],
                 "requestBody": {"required": True, "content": {"application/json": {"schema": {
                     "type": "object", "required": ["client_id", "record"], "properties": {
-                        "client_id": {"type": "string", "format": "uuid"},
+                        "client_id": CLIENT_ID,
                         "base_version": {"type": ["integer", "null"]},
                         "record": RECORD,
                         "amendment": {"type": "object", "properties": {"reason": TEXT}}}}}}},
@@ -107,7 +122,7 @@ def document() -> dict:
                         "version": {"type": "integer"},
                         "verdict": {"type": "string", "enum": ["meets design", "needs engineer"]},
                         "checks": {"type": "array", "items": CHECK}}}, "saved and rechecked"),
-                    "400": _json(ERROR, "not JSON, or no CSRF token"),
+                    "400": BAD_REQUEST, **STORAGE,
                     "409": _json({"type": "object", "properties": {
                         "error": {"type": "string", "enum": ["conflict", "locked"]},
                         "server": {"type": "object"}}}, "changed on the server, or signed"),
@@ -119,13 +134,17 @@ def document() -> dict:
                 "requestBody": {"required": True, "content": {"multipart/form-data": {"schema": {
                     "type": "object", "required": ["file", "client_id", "kind"], "properties": {
                         "file": {"type": "string", "format": "binary"},
-                        "client_id": {"type": "string", "format": "uuid"},
+                        "client_id": CLIENT_ID,
                         "kind": {"type": "string",
                                  "enum": ["base", "cage", "pour", "finished", "other"]},
                         "caption": {"type": "string", "maxLength": 500}}}}}},
                 "responses": {
                     "201": _json({"type": "object", "properties": {
                         "id": {"type": "integer"}, "sha256": {"type": "string"}}}, "stored"),
+                    "200": _json({"type": "object", "properties": {
+                        "id": {"type": "integer"}, "sha256": {"type": "string"}}},
+                        "a repeat of a client_id already stored: the first answer"),
+                    "400": BAD_REQUEST, **STORAGE,
                     "413": _json(ERROR, "file over 25 MB"),
                     "422": _json(ERRORS, "not an image, too many pixels, truncated"), **DENIED}}},
             "/api/v1/projects/{project_id}/piles/{mark}/signoff": {"post": {
@@ -141,9 +160,54 @@ def document() -> dict:
                     "200": _json({"type": "object", "properties": {
                         "signed": {"type": "boolean"}, "record_hash": {"type": "string"}}},
                         "signed"),
-                    "422": _json(ERRORS, "invalid"), **DENIED}}},
+                    "400": BAD_REQUEST,
+                    "409": _json(ERROR, "no record, not logged, changed since reviewed, or already signed"),
+                    "429": _json(ERROR, "too many wrong passwords: wait, then sign again"),
+                    "422": _json(ERRORS, "invalid"), **STORAGE, **DENIED}}},
         },
     }
+    _add_reads(doc["paths"])
+    return doc
+
+
+PHOTO_ID = {"name": "photo_id", "in": "path", "required": True, "schema": {"type": "integer"}}
+SIZE = {"name": "size", "in": "path", "required": True,
+        "schema": {"type": "string", "enum": ["thumb", "display", "original"]}}
+RECORD_VERSION = {"type": "object", "properties": {
+    "version": {"type": "integer"}, "record": {"type": "object"},
+    "verdict": {"type": ["string", "null"]}, "checks": {"type": "array", "items": CHECK}}}
+
+
+def _add_reads(paths: dict) -> None:
+    """The read operations of the pile and photo addresses (GET beside the writes)."""
+    pile = "/api/v1/projects/{project_id}/piles/{mark}"
+    paths[pile] = {"get": {
+        "summary": "one pile with its newest record, capacity curve and limits (the rig page's data)",
+        "parameters": [PROJECT_ID, MARK],
+        "responses": {"200": _json({"type": "object"}, "the pile"), **DENIED}}}
+    paths[pile + "/record"]["get"] = {
+        "summary": "the newest version of the record (version 0 and an empty record when none)",
+        "parameters": [PROJECT_ID, MARK],
+        "responses": {"200": _json(RECORD_VERSION, "the newest version"), **DENIED}}
+    paths[pile + "/history"] = {"get": {
+        "summary": "every saved version of the record, oldest first",
+        "parameters": [PROJECT_ID, MARK],
+        "responses": {"200": _json({"type": "object", "properties": {
+            "mark": {"type": "string"}, "versions": {"type": "array", "items": RECORD_VERSION}}},
+            "the versions"), **DENIED}}}
+    paths[pile + "/photos"]["get"] = {
+        "summary": "the photos of a pile with the addresses of their files",
+        "parameters": [PROJECT_ID, MARK],
+        "responses": {"200": _json({"type": "object", "properties": {
+            "photos": {"type": "array", "items": {"type": "object"}}}}, "the photos"), **DENIED}}
+    paths["/api/v1/projects/{project_id}/photos/{photo_id}/{size}"] = {"get": {
+        "summary": "a photo's image: 320 px thumbnail, 1600 px display copy (JPEG) or the original",
+        "parameters": [PROJECT_ID, PHOTO_ID, SIZE],
+        "responses": {"200": {"description": "the image", "content": {
+            "image/jpeg": {"schema": {"type": "string", "format": "binary"}},
+            "image/png": {"schema": {"type": "string", "format": "binary"}},
+            "image/*": {"schema": {"type": "string", "format": "binary"}}}},
+            "304": {"description": "unchanged since If-None-Match / If-Modified-Since"}, **DENIED}}}
 
 
 @bp.get("/api/v1/openapi.json")
