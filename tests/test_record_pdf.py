@@ -234,3 +234,17 @@ def test_engineer_name_is_escaped_in_the_pdf(app, client, auth, people, site, tm
     with app.app_context():
         pdf.build(db.get_db(), site["pid"], out)
     assert "Eng <i>&amp;" in " ".join(_pages(out))
+
+
+def test_strata_met_and_their_borrowed_layers_are_in_the_record(app, site, tmp_path):
+    strata = [{"from_depth": 0.0, "to_depth": 1.5, "material": "ignore", "description": "fill"},
+              {"from_depth": 1.5, "to_depth": 10.0, "material": "cohesive", "description": "firm clay"},
+              {"from_depth": 10.0, "to_depth": 22.0, "material": "cohesionless", "description": "dense sand"}]
+    saved = save(app, site["pid"], "S1", good_record(site["piles"]["S1"], strata=strata))
+    assert saved.borrowed, "the save path reports which layer each stratum borrowed from"
+    out = tmp_path / "r.pdf"
+    with app.app_context():
+        pdf.build(db.get_db(), site["pid"], out)
+    text = " ".join(_pages(out))
+    assert "Stratum met 1.5–10 m (cohesive)" in text
+    assert "Stratum 2 1.5–10 m cohesive firm clay" in text

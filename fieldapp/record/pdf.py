@@ -503,6 +503,11 @@ def _pile_sheet(st: Styles, sheet: data.PileSheet, photo_dir) -> Iterator[Flowab
         yield Paragraph("<b>Not signed.</b>", st.body)
     yield Paragraph("Checks", st.h3)
     yield _checks_table(st, cur.checks)
+    for note in cur.notes:
+        yield Paragraph(f"Recheck note: {_t(note)}", st.small)
+    for b in cur.borrowed:
+        yield Paragraph(f"Stratum met {_t(_plain(b.get('from_depth')))}–{_t(_plain(b.get('to_depth')))} m "
+                        f"({_t(b.get('material'))}): {_t(b.get('reason', ''))}", st.small)
     thumbs = _thumbs(st, sheet, photo_dir)
     if sheet.figures:
         width = (PAGE[0] - 2 * MARGIN - 4 * mm) / 2
