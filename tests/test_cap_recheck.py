@@ -2,9 +2,19 @@
 
 from __future__ import annotations
 
+import pytest
+
 from fieldapp import db
 from fieldapp.queries import piles, records
-from tests.test_record_api import full_record, put, site  # noqa: F401  (fixture)
+from tests.test_record_api import full_record, make_site, put
+
+
+@pytest.fixture
+def site(app, people):
+    """The record API tests' small site: cap A with piles A1 and A2 on one ground model."""
+    facts = make_site(app, people["own"])
+    facts.update(people)
+    return facts
 
 
 def _state(app, project_id, mark):
