@@ -38,12 +38,13 @@ pytestmark = pytest.mark.slow
 class Client(threading.Thread):
     """One tablet: writes records to its own pile and photos, retrying unanswered writes."""
 
-    def __init__(self, index: int, base: str, project_id: int, mark: str, stop: threading.Event):
+    def __init__(self, index: int, base: str, project_id: int, mark: str, version: int,
+                 stop: threading.Event):
         super().__init__(daemon=True)
         self.index, self.base, self.project_id, self.mark, self.stop = index, base, project_id, mark, stop
         self.session = requests.Session()
         self.token = ""
-        self.version = 0
+        self.version = version  # the pile's stored version when the test starts
         self.acked_records: list[dict] = []   # {"client_id", "mark", "version"}
         self.acked_photos: list[dict] = []    # {"client_id", "mark", "sha256", "id"}
         self.refused: list[tuple[int, str]] = []
@@ -119,22 +120,24 @@ def _wait(condition, timeout: float, what: str) -> None:
         time.sleep(0.01)
 
 
-def _piles(data) -> tuple[int, list[str]]:
+def _piles(data) -> tuple[int, dict[str, int]]:
+    """The project and its first piles with their stored versions (the demo recorded some)."""
     conn = sqlite3.connect(str(data / "toeline.sqlite3"))
     project_id = conn.execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
-    marks = [r[0] for r in conn.execute(
-        "SELECT mark FROM piles WHERE project_id = ? ORDER BY id LIMIT ?", (project_id, CLIENTS))]
+    piles = dict(conn.execute("SELECT mark, current_version FROM piles WHERE project_id = ? ORDER BY id "
+                              "LIMIT ?", (project_id, CLIENTS)).fetchall())
     conn.close()
-    return project_id, marks
+    return project_id, piles
 
 
 def test_every_acknowledged_write_survives_sigkill(demo_data):
-    project_id, marks = _piles(demo_data)
+    project_id, start = _piles(demo_data)
+    marks = list(start)
     assert len(marks) == CLIENTS
     server = Server(demo_data, "--threads", "8")
     server.start()
     stop = threading.Event()
-    clients = [Client(i, server.url, project_id, marks[i], stop) for i in range(CLIENTS)]
+    clients = [Client(i, server.url, project_id, marks[i], start[marks[i]], stop) for i in range(CLIENTS)]
     for c in clients:
         c.start()
     rng = random.Random(20261201)
