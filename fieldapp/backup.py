@@ -56,7 +56,10 @@ def make_backup(data_dir: Path, dest: Path) -> dict:
         src.close()
     photos = data_dir / "photos"
     if photos.is_dir():
-        shutil.copytree(photos, dest / "photos")
+        # Photo files appear through ".tmp-*" files renamed into place (fieldapp.photos); an
+        # upload during the backup would make such a file vanish mid-copy. Finished files are
+        # never removed, and the database was copied first, so its photos are all here.
+        shutil.copytree(photos, dest / "photos", ignore=shutil.ignore_patterns(".tmp-*"))
     files = {}
     for path in sorted(dest.rglob("*")):
         if path.is_file() and path.name != MANIFEST:
