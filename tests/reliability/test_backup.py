@@ -81,3 +81,59 @@ def test_backup_cli_refuses_a_non_empty_destination(app, tmp_path):
     (tmp_path / "full" / "x").write_text("x")
     result = CliRunner().invoke(main, ["--data", str(tmp_path / "data"), "backup", str(tmp_path / "full")])
     assert result.exit_code != 0 and "not empty" in result.output
+
+
+def test_backup_while_photos_are_uploaded_holds_every_photo_of_its_database(demo_data, tmp_path):
+    """Photos written (through temporary files and renames) while the backup copies the photo
+    folder: the backup must not fail on a file that vanished, and every photo row in the
+    backed-up database must have its original, display copy and thumbnail in the backup, with
+    the original's SHA-256 as recorded."""
+    import hashlib
+    import uuid
+
+    from reliability_kit import small_jpeg
+
+    from fieldapp import photos
+    from fieldapp.queries import piles, users
+
+    stop, added, errors = threading.Event(), [0], []
+
+    def uploader():
+        conn = db.connect(demo_data / "toeline.sqlite3")
+        try:
+            pile = piles.get_pile(conn, 1, "P3")
+            user = users.by_email(conn, "inspector@toeline.example")
+            n = 0
+            while not stop.is_set():
+                n += 1
+                photos.add_photo(conn, 1, pile, user, str(uuid.uuid4()), "cage", "", small_jpeg(5000 + n, 400),
+                                 demo_data / "photos")
+                added[0] += 1
+        except BaseException as exc:  # reported below
+            errors.append(exc)
+        finally:
+            conn.close()
+
+    thread = threading.Thread(target=uploader)
+    thread.start()
+    try:
+        for k in range(6):
+            while added[0] < 2 * (k + 1) and thread.is_alive():
+                time.sleep(0.01)
+            dest = tmp_path / f"bk{k}"
+            make_backup(demo_data, dest)
+            assert check_backup(dest) == []
+            copy = sqlite3.connect(str(dest / "toeline.sqlite3"))
+            rows = copy.execute("SELECT sha256, format FROM photos").fetchall()
+            copy.close()
+            assert rows
+            for sha, fmt in rows:
+                original = photos.original_path(dest / "photos", sha, fmt)
+                assert hashlib.sha256(original.read_bytes()).hexdigest() == sha
+                assert photos.display_path(dest / "photos", sha).exists()
+                assert photos.thumb_path(dest / "photos", sha).exists()
+    finally:
+        stop.set()
+        thread.join()
+    assert errors == []
+    assert added[0] >= 12
