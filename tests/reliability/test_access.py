@@ -482,7 +482,7 @@ def test_session_cookie_is_renewed_at_login_and_flagged(app, client, auth, peopl
     assert stale.get("/api/v1/session").status_code == 401
 
 
-def test_cookie_is_secure_behind_the_https_proxy(tmp_path, monkeypatch, people):
+def test_cookie_is_secure_behind_the_https_proxy(tmp_path, monkeypatch):
     from fieldapp import create_app
 
     monkeypatch.setenv("TOELINE_PROXY", "1")
