@@ -16,6 +16,9 @@ Run alone with ``python -m tests.perf --only web``. What it does:
    figures: every tablet firing back to back, the server saturated), 10 s of PUTs only and 10 s
    of ``/healthz`` only: ``put_vs_healthz`` is PUTs per second over /healthz requests per second.
 
+``web_server_cpu_share`` is the server's CPU time over the wall time of the mixed phase (1.0 =
+one core busy); ``put_server_cpu_ms`` the server's CPU time per PUT in the PUT-only phase.
+
 Every answer other than 200, every timeout and every exception counts in ``web_errors``, with
 one exception: a 409 conflict whose ``server.version`` is newer than the tablet's copy is the
 right answer when the server itself gave a cap-mate a new version (its shares changed when
@@ -191,9 +194,13 @@ def run() -> dict:
             # warm the server's imports and caches with one request of each kind (not timed)
             tablets[0].times = {"put": [], "list": [], "page": [], "healthz": []}
             tablets[0]._list(), tablets[0]._page(), tablets[0]._put()
+            cpu0 = server.cpu_s()
             mixed, mix_wall = _phase(tablets, ("put", "list", "page"), MIX_S, PAUSE_S)
+            mix_cpu = server.cpu_s() - cpu0
             busy, busy_wall = _phase(tablets, ("put", "list", "page"), BUSY_S)
+            cpu0 = server.cpu_s()
             puts, put_wall = _phase(tablets, ("put",), SOLO_S)
+            put_cpu = server.cpu_s() - cpu0
             health, health_wall = _phase(tablets, ("healthz",), SOLO_S)
     finally:
         shutil.rmtree(folder, ignore_errors=True)
@@ -205,7 +212,8 @@ def run() -> dict:
     put_solo, healthz = puts["put"], health["healthz"]
     put_rate, health_rate = len(put_solo) / put_wall, len(healthz) / health_wall
     print(f"  mixed {mix_wall:.1f} s: {len(put_mix)} PUT, {len(list_mix)} list, {len(page_mix)} page "
-          f"({(len(put_mix) + len(list_mix) + len(page_mix)) / mix_wall:.1f} requests/s)")
+          f"({(len(put_mix) + len(list_mix) + len(page_mix)) / mix_wall:.1f} requests/s); the server "
+          f"used {mix_cpu:.1f} s of CPU ({100 * mix_cpu / mix_wall:.0f} % of one core)")
     print(f"  busy mix {busy_wall:.1f} s: {sum(len(v) for v in busy.values()) / busy_wall:.1f} requests/s, "
           f"p95 PUT {_p95(busy['put']):.0f} ms, list {_p95(busy['list']):.0f} ms, page {_p95(busy['page']):.0f} ms")
     print(f"  PUT only: {put_rate:.1f}/s (p95 {_p95(put_solo):.0f} ms); /healthz only: {health_rate:.1f}/s")
@@ -221,6 +229,8 @@ def run() -> dict:
         "put_per_s": put_rate,
         "healthz_per_s": health_rate,
         "put_vs_healthz": put_rate / health_rate if health_rate else float("nan"),
+        "web_server_cpu_share": mix_cpu / mix_wall,
+        "put_server_cpu_ms": put_cpu / len(put_solo) * 1e3 if put_solo else float("nan"),
         "web_errors": len(errors),
         "web_conflicts": sum(t.conflicts for t in tablets),
     }

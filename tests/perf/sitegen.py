@@ -185,6 +185,14 @@ class Server:
         self.stop()
         raise RuntimeError(f"the server did not answer /healthz within {start_timeout_s:g} s")
 
+    def cpu_s(self) -> float:
+        """CPU time (user + system, s) the server process has used so far (Linux /proc)."""
+        try:
+            fields = Path(f"/proc/{self.proc.pid}/stat").read_text().rsplit(")", 1)[1].split()
+        except OSError:
+            return float("nan")
+        return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+
     def stop(self) -> None:
         """Stop the server process this object started (by its pid) and wait for it."""
         if self.proc.poll() is None:
