@@ -53,7 +53,8 @@ from typing import Any
 
 import numpy as np
 
-from design_core.ground import LEVEL_TOL_M, GroundModel, _number
+from design_core.ground import LEVEL_TOL_M, GroundModel
+from design_core.validate import number
 from design_core.inputs import LEVEL_LIMIT_M, PILE_TYPES
 from design_core.rules import Rules
 
@@ -289,7 +290,7 @@ class CapacityCurve:
 
         ValueError when ``level`` lies outside the curve's toe levels.
         """
-        level = _number("level", level)
+        level = number("level", level)
         order = np.argsort(self.toe_levels)
         z = self.toe_levels[order]
         if not z[0] - LEVEL_TOL_M <= level <= z[-1] + LEVEL_TOL_M:
@@ -306,12 +307,12 @@ def _check_common(ground: Any, diameter: Any, top_level: Any, pile_type: Any,
     """Validate the inputs shared by every call; ValueError naming the field and the limit."""
     if not isinstance(ground, GroundModel):
         raise ValueError(f"ground must be a GroundModel, got {type(ground).__name__}")
-    diameter = _number("diameter", diameter)
+    diameter = number("diameter", diameter)
     if diameter <= 0.0:
         raise ValueError(f"diameter must be greater than 0 m, got {diameter:g}")
     if diameter > DIAMETER_MAX_M:
         raise ValueError(f"diameter must be at most {DIAMETER_MAX_M:g} m, got {diameter:g}")
-    top_level = _number("top_level", top_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
+    top_level = number("top_level", top_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
     if pile_type not in PILE_TYPES:
         raise ValueError(f"pile_type must be one of {', '.join(PILE_TYPES)}, got {pile_type!r}")
     if rules is None:
@@ -579,7 +580,7 @@ def axial_capacity(ground: GroundModel, diameter: float, top_level: float, toe_l
     NaN or inf).
     """
     diameter, top_level, rules = _check_common(ground, diameter, top_level, pile_type, rules)
-    toe_level = _number("toe_level", toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
+    toe_level = number("toe_level", toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
     _check_toes(ground, top_level, np.array([toe_level]), "toe_level")
     toe_level = max(toe_level, ground.bottom)
     prof = _Profile(ground, diameter, top_level, rules, toe_level, max_step, gauss_points)
@@ -654,7 +655,7 @@ def tension_capacity(ground: GroundModel, diameter: float, top_level: float, toe
     """
     comp = axial_capacity(ground, diameter, top_level, toe_level, pile_type, rules)
     rules = rules or Rules()
-    head = comp.top_level if cutoff_level is None else _number(
+    head = comp.top_level if cutoff_level is None else number(
         "cutoff_level", cutoff_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
     if head <= comp.toe_level:
         raise ValueError(f"cutoff_level ({head:g} m) must be above toe_level ({comp.toe_level:g} m)")
@@ -717,7 +718,7 @@ def required_toe_level(curve: CapacityCurve, load: float) -> float | None:
     """
     if not isinstance(curve, CapacityCurve):
         raise ValueError(f"curve must be a CapacityCurve, got {type(curve).__name__}")
-    load = _number("load", load, 0.0)
+    load = number("load", load, 0.0)
     order = np.argsort(-curve.toe_levels, kind="stable")
     z = curve.toe_levels[order]
     d = curve.design[order]

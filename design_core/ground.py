@@ -26,6 +26,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from design_core.inputs import LEVEL_LIMIT_M, MATERIALS, StratumMet
+from design_core.validate import number
 
 GAMMA_W = 9.81  # kN/m3, the default of Rules.gamma_w
 LEVEL_TOL_M = 1e-6  # levels closer than this (1 micrometre) are the same level
@@ -36,20 +37,6 @@ CU_RANGE = (0.5, 5_000.0)  # kPa
 PHI_RANGE = (10.0, 50.0)  # degrees
 SHAFT_FRICTION_RANGE = (0.0, 5_000.0)  # kPa, ultimate
 BASE_PRESSURE_RANGE = (0.0, 100_000.0)  # kPa, ultimate
-
-
-def _number(name: str, value: Any, lo: float | None = None, hi: float | None = None) -> float:
-    """Return ``value`` as a float; ValueError naming the field unless finite and in [lo, hi]."""
-    if isinstance(value, bool) or not isinstance(value, (int, float, np.integer, np.floating)):
-        raise ValueError(f"{name} must be a number, got {value!r}")
-    value = float(value)
-    if not math.isfinite(value):
-        raise ValueError(f"{name} must be a finite number, got {value!r}")
-    if lo is not None and value < lo:
-        raise ValueError(f"{name} must be at least {lo:g}, got {value:g}")
-    if hi is not None and value > hi:
-        raise ValueError(f"{name} must be at most {hi:g}, got {value:g}")
-    return value
 
 
 @dataclass(frozen=True)
@@ -90,20 +77,20 @@ class Layer:
 
     def __post_init__(self):
         set_ = object.__setattr__
-        set_(self, "top", _number("top", self.top, -LEVEL_LIMIT_M, LEVEL_LIMIT_M))
-        set_(self, "bottom", _number("bottom", self.bottom, -LEVEL_LIMIT_M, LEVEL_LIMIT_M))
+        set_(self, "top", number("top", self.top, -LEVEL_LIMIT_M, LEVEL_LIMIT_M))
+        set_(self, "bottom", number("bottom", self.bottom, -LEVEL_LIMIT_M, LEVEL_LIMIT_M))
         if self.bottom >= self.top:
             raise ValueError(
                 f"bottom ({self.bottom:g} m) must be below top ({self.top:g} m) in a layer")
         if self.material not in MATERIALS:
             raise ValueError(f"material must be one of {', '.join(MATERIALS)}, got {self.material!r}")
-        set_(self, "unit_weight", _number("unit_weight", self.unit_weight, *UNIT_WEIGHT_RANGE))
+        set_(self, "unit_weight", number("unit_weight", self.unit_weight, *UNIT_WEIGHT_RANGE))
         for name, limits in (("cu", CU_RANGE), ("cu_bottom", CU_RANGE), ("phi", PHI_RANGE),
                              ("shaft_friction", SHAFT_FRICTION_RANGE),
                              ("base_pressure", BASE_PRESSURE_RANGE)):
             value = getattr(self, name)
             if value is not None:
-                set_(self, name, _number(name, value, *limits))
+                set_(self, name, number(name, value, *limits))
         where = f"{self.material} layer {self.top:g} to {self.bottom:g} m"
         if self.cu_bottom is not None and self.cu is None:
             raise ValueError(f"cu_bottom needs cu (c_u at the top) in the {where}")
@@ -161,7 +148,7 @@ class GroundModel:
         layers = tuple(self.layers)
         object.__setattr__(self, "layers", layers)
         object.__setattr__(self, "water_level",
-                           _number("water_level", self.water_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M))
+                           number("water_level", self.water_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M))
         if not layers:
             raise ValueError("layers: a ground model needs at least one layer")
         for i, layer in enumerate(layers):
@@ -319,8 +306,8 @@ def ground_from_strata(ground: GroundModel, platform_level: float, strata: Seque
     the field when ``platform_level`` or ``toe_level`` is not finite or the toe lies outside
     the ground model.
     """
-    platform_level = _number("platform_level", platform_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
-    toe_level = _number("toe_level", toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
+    platform_level = number("platform_level", platform_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
+    toe_level = number("toe_level", toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
     if not (ground.bottom - LEVEL_TOL_M <= toe_level <= ground.top + LEVEL_TOL_M):
         raise ValueError(
             f"toe_level ({toe_level:g} m) must lie within the ground model "

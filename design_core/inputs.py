@@ -8,32 +8,16 @@ checked, never as ok.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, fields
 from datetime import datetime
+
+from design_core.validate import number
 
 PILE_TYPES = ("bored", "cfa", "driven", "screw")
 # Displacement piles push the soil aside; bored and CFA piles remove it.
 DISPLACEMENT_TYPES = ("driven", "screw")
 HEAD_CONDITIONS = ("free", "fixed")
 MATERIALS = ("cohesive", "cohesionless", "rock", "ignore")
-
-
-def _finite(name: str, value, lo: float | None = None, hi: float | None = None,
-            optional: bool = False) -> None:
-    """Raise ValueError naming the field unless value is finite and within [lo, hi]."""
-    if value is None:
-        if optional:
-            return
-        raise ValueError(f"{name} is required")
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise ValueError(f"{name} must be a number, got {value!r}")
-    if not math.isfinite(value):
-        raise ValueError(f"{name} must be a finite number, got {value!r}")
-    if lo is not None and value < lo:
-        raise ValueError(f"{name} must be at least {lo:g}, got {value:g}")
-    if hi is not None and value > hi:
-        raise ValueError(f"{name} must be at most {hi:g}, got {value:g}")
 
 
 LEVEL_LIMIT_M = 10_000.0
@@ -73,24 +57,24 @@ class PileDesign:
     def __post_init__(self):
         if not self.mark:
             raise ValueError("mark is required")
-        _finite("diameter", self.diameter, 0.15, 3.0)
-        _finite("cutoff_level", self.cutoff_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
-        _finite("toe_level", self.toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
+        number("diameter", self.diameter, 0.15, 3.0)
+        number("cutoff_level", self.cutoff_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
+        number("toe_level", self.toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
         if self.toe_level >= self.cutoff_level:
             raise ValueError(
                 f"toe_level ({self.toe_level:g} m) must be below cutoff_level ({self.cutoff_level:g} m)")
-        _finite("easting", self.easting)
-        _finite("northing", self.northing)
+        number("easting", self.easting)
+        number("northing", self.northing)
         if self.pile_type not in PILE_TYPES:
             raise ValueError(f"pile_type must be one of {', '.join(PILE_TYPES)}, got {self.pile_type!r}")
         for name in ("compression", "tension", "shear", "moment"):
-            _finite(name, getattr(self, name), 0.0, 1e6)
-        _finite("n_bars", self.n_bars, 0, 200)
-        _finite("bar_mm", self.bar_mm, 0.0, 63.0)
-        _finite("cage_length", self.cage_length, 0.0, 200.0)
-        _finite("fc_mpa", self.fc_mpa, 10.0, 120.0)
-        _finite("fy_mpa", self.fy_mpa, 200.0, 700.0)
-        _finite("cover_mm", self.cover_mm, 0.0, 300.0)
+            number(name, getattr(self, name), 0.0, 1e6)
+        number("n_bars", self.n_bars, 0, 200)
+        number("bar_mm", self.bar_mm, 0.0, 63.0)
+        number("cage_length", self.cage_length, 0.0, 200.0)
+        number("fc_mpa", self.fc_mpa, 10.0, 120.0)
+        number("fy_mpa", self.fy_mpa, 200.0, 700.0)
+        number("cover_mm", self.cover_mm, 0.0, 300.0)
         if self.head not in HEAD_CONDITIONS:
             raise ValueError(f"head must be free or fixed, got {self.head!r}")
 
@@ -111,8 +95,8 @@ class Delivery:
     slump_mm: float | None = None
 
     def __post_init__(self):
-        _finite("volume_m3", self.volume_m3, 0.0, 100.0, optional=True)
-        _finite("slump_mm", self.slump_mm, 0.0, 1000.0, optional=True)
+        number("volume_m3", self.volume_m3, 0.0, 100.0, optional=True)
+        number("slump_mm", self.slump_mm, 0.0, 1000.0, optional=True)
         if self.batched_at and self.discharged_at and self.discharged_at < self.batched_at:
             raise ValueError("discharged_at must not be before batched_at")
 
@@ -139,8 +123,8 @@ class StratumMet:
     layer_index: int | None = None
 
     def __post_init__(self):
-        _finite("from_depth", self.from_depth, 0.0, 500.0)
-        _finite("to_depth", self.to_depth, 0.0, 500.0)
+        number("from_depth", self.from_depth, 0.0, 500.0)
+        number("to_depth", self.to_depth, 0.0, 500.0)
         if self.to_depth <= self.from_depth:
             raise ValueError(
                 f"to_depth ({self.to_depth:g} m) must be below from_depth ({self.from_depth:g} m)")
@@ -194,7 +178,7 @@ class AsBuilt:
             "concrete_volume_m3": (0.0, 2000.0),
         }
         for name, (lo, hi) in limits.items():
-            _finite(name, getattr(self, name), lo, hi, optional=True)
+            number(name, getattr(self, name), lo, hi, optional=True)
 
     @property
     def toe_level(self) -> float | None:
@@ -245,4 +229,4 @@ class CapGroup:
         if not self.piles:
             raise ValueError(f"cap {self.mark} has no piles")
         for name in ("n", "mx", "my", "hx", "hy"):
-            _finite(name, getattr(self, name), -1e7, 1e7)
+            number(name, getattr(self, name), -1e7, 1e7)

@@ -13,9 +13,10 @@ Status words used in the sources, as in the team's reference sheet:
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field, fields, replace
 from typing import Any
+
+from design_core.validate import number
 
 DESIGN_APPROACHES = ("working_stress", "limit_state")
 ALPHA_RULES = ("api", "power")
@@ -30,18 +31,6 @@ def _rule(default: Any, label: str, unit: str, source: str, lo: float | None = N
     return field(default=default, metadata={
         "label": label, "unit": unit, "source": source, "min": lo, "max": hi, "choices": choices,
     })
-
-
-def _check_range(name: str, value: float, lo: float | None, hi: float | None) -> None:
-    """Raise ValueError naming the field unless ``value`` is a finite number within [lo, hi]."""
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise ValueError(f"{name} must be a number, got {value!r}")
-    if not math.isfinite(value):
-        raise ValueError(f"{name} must be a finite number, got {value!r}")
-    if lo is not None and value < lo:
-        raise ValueError(f"{name} must be at least {lo:g}, got {value:g}")
-    if hi is not None and value > hi:
-        raise ValueError(f"{name} must be at most {hi:g}, got {value:g}")
 
 
 @dataclass(frozen=True)
@@ -60,8 +49,8 @@ class ExposureClass:
     def __post_init__(self):
         if not self.code or len(self.code) > 12:
             raise ValueError(f"exposure class code must be 1-12 characters, got {self.code!r}")
-        _check_range("cmin_dur_mm", self.cmin_dur_mm, 0.0, 200.0)
-        _check_range("min_strength_mpa", self.min_strength_mpa, 0.0, 120.0)
+        number("cmin_dur_mm", self.cmin_dur_mm, 0.0, 200.0)
+        number("min_strength_mpa", self.min_strength_mpa, 0.0, 120.0)
 
 
 EXPOSURE_SOURCE = (
@@ -301,7 +290,7 @@ class Rules:
                 if len(set(codes)) != len(codes):
                     raise ValueError("exposure_table has a class listed twice")
             else:
-                _check_range(f.name, value, meta.get("min"), meta.get("max"))
+                number(f.name, value, meta.get("min"), meta.get("max"))
 
     # --- lookups -------------------------------------------------------------------------
     def exposure(self, code: str) -> ExposureClass:
