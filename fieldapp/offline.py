@@ -17,6 +17,7 @@ PRODUCT.md section 9. Routes (blueprint ``offline``):
 
 from __future__ import annotations
 
+import gzip
 import hashlib
 import io
 import json
@@ -216,7 +217,7 @@ def rig_data_from_bundle(bundle: dict, mark: str) -> dict | None:
     return out
 
 
-def _etag_matches(header: str | None, etag: str) -> bool:
+def _etag_matches(header: str | None, etags: tuple[str, ...]) -> bool:
     if not header:
         return False
     if header.strip() == "*":
@@ -225,7 +226,7 @@ def _etag_matches(header: str | None, etag: str) -> bool:
         part = part.strip()
         if part.startswith("W/"):
             part = part[2:]
-        if part == etag:
+        if part in etags:
             return True
     return False
 
@@ -233,14 +234,24 @@ def _etag_matches(header: str | None, etag: str) -> bool:
 @bp.get("/api/v1/projects/<int:project_id>/bundle")
 @login_required
 def bundle(project_id: int):
-    """The project's offline bundle (members only) with a strong ETag; 304 when unchanged."""
+    """The project's offline bundle (members only) with a strong ETag; 304 when unchanged.
+
+    Sent gzip-compressed when the client accepts it (a 5,000-pile bundle is about 3.5 MB of
+    JSON and 0.2 MB compressed); the compressed form has its own ETag (``"<hash>-gz"``), as a
+    strong validator must differ between content codings.
+    """
     project = project_or_404(project_id)
     data = build_bundle(db.get_db(), project)
     body = json.dumps(data, separators=(",", ":"), sort_keys=True, allow_nan=False).encode()
-    etag = '"' + hashlib.sha256(body).hexdigest()[:32] + '"'
-    headers = {"ETag": etag, "Cache-Control": "private, no-cache", "Vary": "Cookie"}
-    if _etag_matches(request.headers.get("If-None-Match"), etag):
+    digest = hashlib.sha256(body).hexdigest()[:32]
+    gz = request.accept_encodings["gzip"] > 0
+    etag = f'"{digest}-gz"' if gz else f'"{digest}"'
+    headers = {"ETag": etag, "Cache-Control": "private, no-cache", "Vary": "Cookie, Accept-Encoding"}
+    if _etag_matches(request.headers.get("If-None-Match"), (f'"{digest}"', f'"{digest}-gz"')):
         return Response(status=304, headers=headers)
+    if gz:
+        headers["Content-Encoding"] = "gzip"
+        body = gzip.compress(body, compresslevel=5, mtime=0)
     return Response(body, mimetype="application/json", headers=headers)
 
 

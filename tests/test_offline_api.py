@@ -206,3 +206,17 @@ def test_pages_link_the_manifest_and_outbox(client):
     assert 'rel="manifest" href="/manifest.webmanifest"' in html
     assert "/static/outbox.js" in html
     assert "<script>" not in html  # no inline script (CSP)
+
+
+def test_bundle_is_gzipped_for_clients_that_accept_it(client, auth, site):
+    import gzip
+
+    auth.login(site["inspector"])
+    plain = client.get(url(site))
+    packed = client.get(url(site), headers={"Accept-Encoding": "gzip, deflate"})
+    assert packed.headers["Content-Encoding"] == "gzip"
+    assert gzip.decompress(packed.data) == plain.data
+    assert packed.headers["ETag"] == plain.headers["ETag"][:-1] + '-gz"'
+    assert "Accept-Encoding" in packed.headers["Vary"]
+    again = client.get(url(site), headers={"Accept-Encoding": "gzip", "If-None-Match": packed.headers["ETag"]})
+    assert again.status_code == 304
