@@ -14,24 +14,17 @@ from __future__ import annotations
 import base64
 import hashlib
 import io
-import os
-import shutil
-import threading
 import time
 import uuid
 
 import pytest
 from PIL import Image
-from werkzeug.serving import make_server
 
 from fieldapp import db
 from fieldapp.queries import ground, piles
 
 pytestmark = pytest.mark.browser
 
-CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
-ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
-        "--disable-sync", "--no-first-run", "--disable-quic"]
 PASSWORD = "correct horse 42"  # tests/conftest.py PASSWORD
 
 LAYERS = [
@@ -52,29 +45,22 @@ def _pile(mark, gm, load=800.0):
 
 
 @pytest.fixture
-def chromium():
-    if not os.path.exists(CHROMIUM):
-        if os.environ.get("CI"):
-            pytest.fail("chromium is required in CI (.ci/run installs it)")
-        pytest.skip("chromium is not installed (apt-get install chromium)")
-    return CHROMIUM
+def chromium(browser_type_launch_args):
+    """(executable_path, args) of Debian's Chromium, from tests/browser/conftest.py (which
+    skips without it on a workstation and fails in CI)."""
+    return browser_type_launch_args["executable_path"], browser_type_launch_args["args"]
 
 
 @pytest.fixture
-def site(app, people):
-    """Three planned piles on the project 'own'; the server running on a free port."""
+def site(app, people, live_server):
+    """Three planned piles on the project 'own'; the server (conftest's live_server) running."""
     with app.app_context():
         conn = db.get_db()
         with db.write(conn):
             gm = ground.save_model(conn, people["own"], "clay over sand", 45.0, LAYERS)
             for mark in ("P1", "P2", "P3"):
                 piles.save_pile(conn, people["own"], _pile(mark, gm))
-    server = make_server("127.0.0.1", 0, app, threaded=True)
-    thread = threading.Thread(target=server.serve_forever, daemon=True)
-    thread.start()
-    yield dict(people, pid=people["own"], base=f"http://127.0.0.1:{server.server_port}", app=app)
-    server.shutdown()
-    thread.join(timeout=5)
+    return dict(people, pid=people["own"], base=live_server, app=app)
 
 
 class Tablet:
@@ -85,8 +71,9 @@ class Tablet:
         self.context = None
 
     def open(self, offline: bool = False):
+        executable, args = self.chromium
         self.context = self.browser_type.launch_persistent_context(
-            str(self.folder), executable_path=self.chromium, args=ARGS, headless=True,
+            str(self.folder), executable_path=executable, args=args, headless=True,
             viewport={"width": 1280, "height": 800}, offline=offline)
         self.context.set_default_timeout(20_000)
         return self.context.pages[0] if self.context.pages else self.context.new_page()
@@ -112,23 +99,36 @@ def login(page, site, email):
     page.fill("#email", email)
     page.fill("#password", PASSWORD)
     page.click("button[type=submit]")
-    page.wait_for_load_state()
-    assert "/login" not in page.url
+    page.wait_for_url(lambda u: "/login" not in u)
 
 
-def wait_controlled(page):
-    """Wait for the service worker to be activated and to control this page."""
-    page.evaluate("""async () => {
-        const reg = await navigator.serviceWorker.ready;
-        const sw = reg.active;
-        if (sw.state !== 'activated') {
-            await new Promise((r) => sw.addEventListener('statechange', () => { if (sw.state === 'activated') r(); }));
-        }
-        if (!navigator.serviceWorker.controller) {
-            await new Promise((r) => navigator.serviceWorker.addEventListener('controllerchange', r, {once: true}));
-        }
-    }""")
-    assert page.evaluate("navigator.serviceWorker.controller && navigator.serviceWorker.controller.state") == "activated"
+def wait_controlled(page, timeout_ms: int = 20_000):
+    """Wait for the service worker to be activated and to control this page.
+
+    A page whose navigation began while the worker was still installing can miss the worker's
+    clients.claim() and stay uncontrolled; the next load of it is controlled, so reload once.
+    """
+    script = """async (ms) => {
+        const late = (v, t) => new Promise((r) => setTimeout(() => r(v), t));
+        const activated = (async () => {
+            const reg = await navigator.serviceWorker.ready;
+            const sw = reg.active;
+            if (sw.state !== 'activated') {
+                await new Promise((r) => sw.addEventListener('statechange', () => { if (sw.state === 'activated') r(); }));
+            }
+            return 'activated';
+        })();
+        if (await Promise.race([activated, late('timeout', ms)]) !== 'activated') return 'not activated';
+        if (navigator.serviceWorker.controller) return 'controlled';
+        const change = new Promise((r) => navigator.serviceWorker.addEventListener('controllerchange', () => r('controlled'), {once: true}));
+        return await Promise.race([change, late('uncontrolled', 3000)]);
+    }"""
+    state = page.evaluate(script, timeout_ms)
+    if state == "uncontrolled":
+        page.reload()
+        state = page.evaluate(script, timeout_ms)
+    assert state == "controlled", f"service worker not in control: {state}"
+    assert page.evaluate("navigator.serviceWorker.controller.state") == "activated"
 
 
 def until(page, script: str, arg=None, timeout_s: float = 20.0):
@@ -137,8 +137,10 @@ def until(page, script: str, arg=None, timeout_s: float = 20.0):
     (Playwright's wait_for_function evaluates strings, which the app's CSP rightly forbids.)
     """
     deadline = time.monotonic() + timeout_s
+    guarded = f"""async (arg) => await Promise.race([({script})(arg),
+        new Promise((r) => setTimeout(() => r(false), 5000))])"""
     while True:
-        value = page.evaluate(script, arg)
+        value = page.evaluate(guarded, arg)
         if value:
             return value
         if time.monotonic() > deadline:
@@ -148,6 +150,20 @@ def until(page, script: str, arg=None, timeout_s: float = 20.0):
 
 def waiting_is(page, n: int):
     until(page, "(n) => document.getElementById('outbox-status').dataset.waiting === String(n)", n)
+
+
+def cut_network(context, page):
+    """Take the tablet offline and wait until the page's own requests really fail.
+
+    (Chromium applies Playwright's offline emulation to a service worker's target a moment
+    after it starts; until then a request the worker passes on can still get through.)
+    """
+    context.set_offline(True)
+    until(page, """async () => {
+        try { await fetch('/healthz?' + Math.random(), {cache: 'no-store'}); return false; }
+        catch (err) { return true; }
+    }""")
+    until(page, "() => navigator.onLine === false")
 
 
 def wait_bundle(page, pid):
@@ -229,7 +245,7 @@ def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site
     page.reload()  # now through the worker: the page is cached, the rig shell warmed
     until(page, "async (pid) => !!(await caches.match(`/projects/${pid}/rig`))", pid)
 
-    tablet.context.set_offline(True)
+    cut_network(tablet.context, page)
     until(page, "() => document.getElementById('net-status').textContent === 'offline'")
     response = page.reload()
     assert response.from_service_worker, "the offline reload must come from the worker's cache"
@@ -258,17 +274,25 @@ def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site
     waiting_is(page, 2)
     assert "waiting to be sent" in page.locator("#photo-list").inner_text()
 
-    # 2. Close the browser and open it again, still offline: both items are still there.
+    # 2. Close the browser and open it again, still offline: both items are still there, and
+    #    the pile opens with what this tablet saved for it.
     tablet.close()
     page = tablet.open(offline=True)
-    response = page.goto(tablet.url(f"/projects/{pid}/piles"))
+    response = page.goto(tablet.url(f"/projects/{pid}/rig/P2"))
     assert response.from_service_worker
     waiting_is(page, 2)
+    until(page, "() => window.ToelineRig && window.ToelineRig.data().mark === 'P2'")
+    assert page.locator(".rig-head h1").inner_text() == "Pile P2"
+    assert page.input_value("#f-measured_depth") == "4"
     assert api.history("P2") == [] and api.photos("P2") == []
 
-    # 3. The network returns: the outbox empties, the server holds one version and one photo.
+    # 3. The network returns: the outbox empties, the server holds one version and one photo,
+    #    and the verdict appears on the open page.
     tablet.context.set_offline(False)
     waiting_is(page, 0)
+    until(page, "() => document.getElementById('verdict').dataset.verdict === 'needs engineer'")
+    assert "NEEDS ENGINEER" in page.locator("#verdict").inner_text()
+    assert page.locator("#checks-rows tr[data-code=axial_compression].short").count() == 1
     versions = api.history("P2")
     assert len(versions) == 1 and versions[0]["record"]["measured_depth"] == 4.0
     assert versions[0]["verdict"] == "needs engineer"
@@ -278,11 +302,6 @@ def test_offline_record_and_photo_survive_a_restart_and_arrive_once(tablet, site
     assert len(photos) == 1 and photos[0]["kind"] == "base"
     assert photos[0]["sha256"] == hashlib.sha256(PHOTO).hexdigest()  # the original bytes, kept
     assert outbox_counts(page) == {"waiting": 0, "conflict": 0, "rejected": 0, "bytes": 0}
-    # The verdict appears on the tablet: the pile's page, online again, shows it.
-    page.goto(tablet.url(f"/projects/{pid}/rig/P2"))
-    verdict = page.locator("#verdict")
-    until(page, "() => document.getElementById('verdict').dataset.verdict === 'needs engineer'")
-    assert "NEEDS ENGINEER" in verdict.inner_text()
     bundle_pile = page.evaluate(f"window.ToelineOutbox.getBundle({pid}).then((b) => b.piles.P2)")
     assert bundle_pile["version"] == 1 and bundle_pile["verdict"] == "needs engineer"
 
@@ -325,7 +344,7 @@ def test_a_conflict_is_shown_side_by_side_and_nothing_is_lost(tablet, site):
     page.goto(tablet.url(f"/projects/{pid}/piles"))
     wait_controlled(page)
     wait_bundle(page, pid)
-    tablet.context.set_offline(True)
+    cut_network(tablet.context, page)
     mine = {"progress": "boring", "platform_level": 50.0, "measured_depth": 9.5, "rig": "tablet rig"}
     assert save_record_js(page, pid, "P3", mine, 1)["queued"] is True
     office = {"progress": "boring", "platform_level": 50.0, "measured_depth": 7.25, "rig": "office rig"}
@@ -360,7 +379,7 @@ def test_an_expired_login_keeps_every_item_and_asks_to_sign_in(tablet, site):
     login(page, site, site["inspector"])
     page.goto(tablet.url(f"/projects/{pid}/piles"))
     wait_controlled(page)
-    tablet.context.set_offline(True)
+    cut_network(tablet.context, page)
     assert save_record_js(page, pid, "P1", SHORT, 0)["queued"] is True
     tablet.context.clear_cookies()  # the session ends while the tablet is out of signal
     tablet.context.set_offline(False)
@@ -374,8 +393,7 @@ def test_an_expired_login_keeps_every_item_and_asks_to_sign_in(tablet, site):
     page.fill("#email", site["inspector"])
     page.fill("#password", PASSWORD)
     page.click("button[type=submit]")
-    page.wait_for_load_state()
-    assert page.url.endswith(f"/projects/{pid}/piles")
+    page.wait_for_url(lambda u: u.endswith(f"/projects/{pid}/piles"))
     waiting_is(page, 0)
     assert len(api.history("P1")) == 1
 
@@ -389,7 +407,7 @@ def test_storage_is_shown_and_a_photo_past_the_quota_is_refused_aloud(browser_ty
     reports, so the "nearly full" figure is given to the page by replacing estimate().
     """
     pid = site["pid"]
-    browser = browser_type.launch(executable_path=chromium, args=ARGS, headless=True)
+    browser = browser_type.launch(executable_path=chromium[0], args=chromium[1], headless=True)
     try:
         context = browser.new_context(viewport={"width": 1280, "height": 800})
         context.set_default_timeout(20_000)
@@ -409,7 +427,7 @@ def test_storage_is_shown_and_a_photo_past_the_quota_is_refused_aloud(browser_ty
         else:
             assert info["persisted"] is True and "keeps this storage" in panel.inner_text()
         assert "the browser allows" in page.locator("#outbox-storage").inner_text()
-        context.set_offline(True)
+        cut_network(context, page)
 
         # The browser reports 85 % of the quota used: the next save warns before the quota.
         page.evaluate("""() => Object.defineProperty(navigator.storage, 'estimate', {configurable: true,
@@ -433,3 +451,26 @@ def test_storage_is_shown_and_a_photo_past_the_quota_is_refused_aloud(browser_ty
         context.close()
     finally:
         browser.close()
+
+
+def test_a_changed_shell_installs_a_new_worker_and_drops_the_old_cache(tablet, site, tmp_path):
+    """Versioned cache: any change to a static file gives a new worker whose activate
+    removes the old cache; the new cache holds the new file."""
+    import shutil
+
+    app = site["app"]
+    static = tmp_path / "static"
+    shutil.copytree(app.static_folder, static)
+    app.static_folder = str(static)  # served from this copy from now on
+    page = tablet.open()
+    page.goto(tablet.url("/login"))
+    wait_controlled(page)
+    first = page.evaluate("caches.keys()")
+    assert len(first) == 1 and first[0].startswith("toeline-shell-")
+
+    (static / "app.css").write_text((static / "app.css").read_text() + "\n/* shell v2 */\n")
+    page.evaluate("navigator.serviceWorker.getRegistration().then((r) => r.update())")
+    until(page, "async (old) => { const k = await caches.keys(); return k.length === 1 && k[0] !== old; }",
+          first[0])
+    css = page.evaluate("caches.match('/static/app.css').then((r) => r.text())")
+    assert "/* shell v2 */" in css
