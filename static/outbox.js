@@ -648,7 +648,8 @@
   function renderPanel() {
     if (!document.body) return;
     const c = lastCounts;
-    const attention = state.loginNeeded || c.conflict > 0 || c.rejected > 0 || nearlyFull();
+    const insecure = window.isSecureContext === false;
+    const attention = state.loginNeeded || c.conflict > 0 || c.rejected > 0 || nearlyFull() || insecure;
     const panel = panelNode();
     panel.hidden = !(state.panelOpen || attention);
     if (panel.hidden) return;
@@ -659,6 +660,13 @@
       panel.appendChild(el("p", { class: "flash", role: "alert", id: "outbox-login" }, [
         "Your sign-in has expired. Everything waiting stays on this tablet. ",
         el("a", { class: "btn primary", href: "/login?next=" + encodeURIComponent(next), text: "Sign in again" }),
+      ]));
+    }
+    if (insecure) {
+      panel.appendChild(el("p", { class: "flash", role: "alert", id: "outbox-insecure" }, [
+        "This page came over plain HTTP, so the browser will not keep Toeline for use with no signal. " +
+        "Use the https:// address of the site laptop. ",
+        el("a", { href: "/site-ca", text: "How to set up the tablet" }),
       ]));
     }
     const warn = storageWarning();

@@ -207,3 +207,35 @@ def test_without_trusting_the_authority_the_browser_refuses_the_site(tls_server,
             page.goto(f"https://tablet.test:{tls_server['port']}/login")
     finally:
         context.close()
+
+
+@pytest.mark.browser
+def test_plain_http_from_a_site_name_gets_no_worker_and_the_page_says_so(tmp_path, browser_type):
+    """Why --https exists: over plain HTTP from a site address the browser gives no service
+    worker (not a secure context), and the page tells the inspector what to do."""
+    if not os.path.exists(CHROMIUM):
+        if os.environ.get("CI"):
+            pytest.fail("chromium is required in CI (.ci/run installs it)")
+        pytest.skip("chromium is not installed")
+    from werkzeug.serving import make_server
+
+    app = create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "data")})
+    server = make_server("127.0.0.1", 0, app, threaded=True)
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    args = CHROMIUM_ARGS + ["--host-resolver-rules=MAP tablet.test 127.0.0.1"]
+    context = browser_type.launch_persistent_context(str(tmp_path / "profile"), executable_path=CHROMIUM,
+                                                     args=args, headless=True)
+    try:
+        page = context.new_page()
+        page.goto(f"http://tablet.test:{server.server_port}/login")
+        assert page.evaluate("window.isSecureContext") is False
+        assert page.evaluate("'serviceWorker' in navigator") is False
+        notice = page.locator("#outbox-insecure")
+        notice.wait_for()
+        assert "https://" in notice.inner_text()
+        assert notice.locator("a").get_attribute("href") == "/site-ca"
+    finally:
+        context.close()
+        server.shutdown()
+        thread.join(timeout=5)
