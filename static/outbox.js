@@ -94,6 +94,7 @@
   }
   function formatBytes(n) {
     if (n == null || !isFinite(n)) return "?";
+    if (n < 1024) return n + " bytes";
     if (n < 1024 * 1024) return (n / 1024).toFixed(0) + " kB";
     if (n < 1024 * 1024 * 1024) return (n / 1048576).toFixed(1) + " MB";
     return (n / 1073741824).toFixed(2) + " GB";
@@ -600,7 +601,10 @@
     }
     ensureButtons();
     const send = document.getElementById("outbox-send");
-    if (send) send.hidden = !(lastCounts.waiting > 0);
+    if (send) {
+      send.hidden = !(lastCounts.waiting > 0);
+      send.style.display = send.hidden ? "none" : "";  // .btn sets display, which beats [hidden]
+    }
     emit("outbox", { waiting: lastCounts.waiting, conflict: lastCounts.conflict, rejected: lastCounts.rejected });
     renderPanel();
   }
@@ -619,6 +623,7 @@
     send.className = "btn small";
     send.textContent = "Send now";
     send.hidden = true;
+    send.style.display = "none";
     send.addEventListener("click", () => { clearTimer(); flush(); });
     status.insertAdjacentElement("afterend", send);
   }
@@ -849,6 +854,12 @@
     const projectId = projectIdFromUrl();
     if (projectId && navigator.onLine !== false) {
       refreshBundle(projectId).then((bundle) => warmProject(projectId, bundle)).catch(() => {});
+    }
+    if (projectId && navigator.serviceWorker) {
+      // First visit: the worker takes control of this page only now; keep the rig shell then.
+      navigator.serviceWorker.addEventListener("controllerchange", () => {
+        getBundle(projectId).then((bundle) => warmProject(projectId, bundle)).catch(() => {});
+      });
     }
     if (navigator.onLine !== false) flush();
   }

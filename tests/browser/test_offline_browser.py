@@ -98,7 +98,7 @@ def login(page, site, email):
     page.goto(site["base"] + "/login")
     page.fill("#email", email)
     page.fill("#password", PASSWORD)
-    page.click("button[type=submit]")
+    page.click("main button[type=submit]")
     page.wait_for_url(lambda u: "/login" not in u)
 
 
@@ -334,7 +334,7 @@ def test_a_lost_answer_does_not_double_the_version(tablet, site):
     assert len(versions) == 1 and versions[0]["client_id"] == answer["client_id"]
 
 
-def test_a_conflict_is_shown_side_by_side_and_nothing_is_lost(tablet, site):
+def test_a_conflict_is_shown_side_by_side_and_nothing_is_lost(tablet, site, artifacts):
     pid = site["pid"]
     api = Api(site)
     first = api.put("P3", {"progress": "boring", "platform_level": 50.0, "measured_depth": 6.0}, 0)
@@ -363,6 +363,8 @@ def test_a_conflict_is_shown_side_by_side_and_nothing_is_lost(tablet, site):
     assert [v["version"] for v in versions] == [1, 2] and versions[1]["record"]["rig"] == "office rig"
     assert outbox_counts(page)["conflict"] == 1
     assert "1 to resolve" in page.locator("#outbox-status").inner_text()
+    assert not page.locator("#outbox-send").is_visible()  # nothing waiting to send
+    page.screenshot(path=str(artifacts / "offline-conflict.png"))
 
     conflict.locator("[data-action=keep-mine]").click()
     until(page, "() => document.getElementById('outbox-status').dataset.conflicts === '0'")
@@ -379,6 +381,9 @@ def test_an_expired_login_keeps_every_item_and_asks_to_sign_in(tablet, site):
     login(page, site, site["inspector"])
     page.goto(tablet.url(f"/projects/{pid}/piles"))
     wait_controlled(page)
+    wait_bundle(page, pid)
+    # Let the worker finish keeping the rig pages, whose answers would renew the session.
+    until(page, "async (pid) => !!(await caches.match(`/projects/${pid}/rig`))", pid)
     cut_network(tablet.context, page)
     assert save_record_js(page, pid, "P1", SHORT, 0)["queued"] is True
     tablet.context.clear_cookies()  # the session ends while the tablet is out of signal
@@ -392,7 +397,7 @@ def test_an_expired_login_keeps_every_item_and_asks_to_sign_in(tablet, site):
     prompt.locator("a").click()
     page.fill("#email", site["inspector"])
     page.fill("#password", PASSWORD)
-    page.click("button[type=submit]")
+    page.click("main button[type=submit]")
     page.wait_for_url(lambda u: u.endswith(f"/projects/{pid}/piles"))
     waiting_is(page, 0)
     assert len(api.history("P1")) == 1
