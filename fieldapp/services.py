@@ -478,15 +478,21 @@ def _pile_design(pile_row) -> PileDesign:
 
 
 def load_inputs(conn: sqlite3.Connection, project_id: int, pile_row,
-                record: dict[str, Any] | None = None) -> RecheckInputs:
+                record: dict[str, Any] | None = None, base: RecheckInputs | None = None) -> RecheckInputs:
     """Design, ground model, current rules and cap group for one pile.
 
     The cap group carries the as-built positions of the cap's piles from their newest
     records, with this record's easting/northing (when given) in place of the pile's own.
+    ``base`` (inputs already read for the same pile) supplies design, ground and rules, so
+    only the cap group is read again.
     """
-    rule_set = projects.current_rules(conn, project_id)
-    design = _pile_design(pile_row)
-    ground = ground_q.load_ground_model(conn, pile_row.ground_model_id)
+    if base is not None:
+        rule_set = projects.RuleSet(project_id, base.rules_version, base.rules, "", "")
+        design, ground = base.design, base.ground
+    else:
+        rule_set = projects.current_rules(conn, project_id)
+        design = _pile_design(pile_row)
+        ground = ground_q.load_ground_model(conn, pile_row.ground_model_id)
     group = None
     if pile_row.cap_id is not None:
         positions = records.current_positions_in_cap(conn, pile_row.cap_id)
@@ -694,7 +700,7 @@ def save_record(conn: sqlite3.Connection, project_id: int, pile_row, user, clien
     clean, errors = validate_record(raw, inputs.rules, inputs.design, inputs.ground)
     if errors:
         raise RecordInvalid(errors)
-    inputs = load_inputs(conn, project_id, pile_row, clean)
+    inputs = load_inputs(conn, project_id, pile_row, clean, base=inputs)
     try:
         verdict = recheck_pile(conn, project_id, pile_row, clean, inputs)
         borrowed = borrowed_list(verdict, inputs, clean)

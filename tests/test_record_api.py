@@ -447,3 +447,17 @@ def test_rig_pages_are_for_members_only(client, auth, site):
     auth.logout()
     auth.login(site["inspector"])
     assert client.get(f"/projects/{site['own']}/rig/NOPE").status_code == 404
+
+
+def test_pile_list_is_sent_again_only_after_a_change(client, auth, site):
+    auth.login(site["inspector"])
+    url = f"/api/v1/projects/{site['own']}/piles"
+    put(client, auth, site["own"], "A2", full_record(site, "A2"))
+    first = client.get(url)
+    etag = first.headers["ETag"]
+    assert client.get(url, headers={"If-None-Match": etag}).status_code == 304
+    put(client, auth, site["own"], "A1", full_record(site, "A1"))
+    changed = client.get(url, headers={"If-None-Match": etag})
+    assert changed.status_code == 200 and changed.headers["ETag"] != etag
+    a1 = next(p for p in changed.get_json()["piles"] if p["mark"] == "A1")
+    assert a1["version"] == 1

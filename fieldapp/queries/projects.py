@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import json
 import sqlite3
 from dataclasses import dataclass
@@ -75,8 +76,14 @@ def current_rules(conn: sqlite3.Connection, project_id: int) -> RuleSet:
         (project_id,)).fetchone()
     if row is None:
         raise LookupError(f"project {project_id} has no rules")
-    return RuleSet(project_id, row["version"], Rules.from_dict(json.loads(row["rules_json"])),
+    return RuleSet(project_id, row["version"], rules_from_json(row["rules_json"]),
                    row["note"], row["created_at"])
+
+
+@functools.lru_cache(maxsize=256)
+def rules_from_json(text: str) -> Rules:
+    """Rules from their stored JSON; cached on the text (Rules are frozen, so sharing is safe)."""
+    return Rules.from_dict(json.loads(text))
 
 
 def rules_version(conn: sqlite3.Connection, project_id: int, version: int) -> RuleSet | None:
@@ -85,7 +92,7 @@ def rules_version(conn: sqlite3.Connection, project_id: int, version: int) -> Ru
                        (project_id, version)).fetchone()
     if row is None:
         return None
-    return RuleSet(project_id, row["version"], Rules.from_dict(json.loads(row["rules_json"])),
+    return RuleSet(project_id, row["version"], rules_from_json(row["rules_json"]),
                    row["note"], row["created_at"])
 
 
