@@ -52,7 +52,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from design_core import PileVerdict, Rules
+from design_core import PileVerdict, ProjectItem, Rules
 from design_core.axial import CapacityCurve, capacity_curve, required_toe_level
 from design_core.ground import GroundModel, ground_from_strata
 from design_core.inputs import AsBuilt, CapGroup, Delivery, MATERIALS, PileDesign, StratumMet
@@ -508,6 +508,11 @@ def _recheck():
     return recheck
 
 
+def _recheck_project():
+    from design_core.recheck import recheck_project
+    return recheck_project
+
+
 def recheck_pile(conn: sqlite3.Connection, project_id: int, pile_row, record_dict: dict[str, Any],
                  inputs: RecheckInputs | None = None) -> PileVerdict:
     """Run ``design_core.recheck`` for one pile on a clean record dict.
@@ -785,17 +790,40 @@ def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, r
     """
     changed = []
     actor = actor or (user.label if user else "system")
+    # Read each ground model and cap once and recheck the batch together (design_core's
+    # project recheck shares capacity curves, sections and Winkler solves between piles).
+    rule_set = projects.current_rules(conn, project_id)
+    grounds: dict[int, GroundModel] = {}
+    groups: dict[str, CapGroup] = {}
+    batch = []
     for mate in pile_rows:
         if mate.current_version == 0:
             continue
         current = records.current(conn, mate.id)
         if current is None:
             continue
-        inputs = load_inputs(conn, project_id, mate, current.record)
-        try:
-            verdict = recheck_pile(conn, project_id, mate, current.record, inputs)
-        except ValueError:
-            continue  # its own save succeeded before; the engineer sees it as it was
+        if mate.ground_model_id not in grounds:
+            grounds[mate.ground_model_id] = ground_q.load_ground_model(conn, mate.ground_model_id)
+        if mate.cap_id is not None and mate.cap_mark not in groups:
+            groups[mate.cap_mark] = caps_q.cap_group(
+                conn, mate.cap_id, records.current_positions_in_cap(conn, mate.cap_id))
+        group = groups.get(mate.cap_mark) if mate.cap_id is not None else None
+        inputs = RecheckInputs(_pile_design(mate), grounds[mate.ground_model_id], rule_set.rules,
+                               rule_set.version, group)
+        batch.append((mate, current, inputs))
+    try:
+        verdicts = _recheck_project()(
+            [ProjectItem(i.design, asbuilt_from_record(c.record), i.ground) for _, c, i in batch],
+            rule_set.rules, groups)
+    except ValueError:
+        verdicts = {}  # one pile the batch cannot take: recheck one by one below
+    for mate, current, inputs in batch:
+        verdict = verdicts.get(mate.mark)
+        if verdict is None:
+            try:
+                verdict = recheck_pile(conn, project_id, mate, current.record, inputs)
+            except ValueError:
+                continue  # its own save succeeded before; the engineer sees it as it was
         checks = [c.to_dict() for c in verdict.short_first()]
         before = {c["code"]: c["ok"] for c in current.checks}
         after = {c["code"]: c["ok"] for c in checks}
