@@ -319,25 +319,38 @@ def validate_record(raw: Any, rules: Rules, design: PileDesign | None = None,
     return clean, errors
 
 
-def _deliveries(value: Any, errors: dict[str, str]) -> list[dict[str, Any]]:
+def _items(value: Any, errors: dict[str, str], field: str, noun: str, limit: int,
+           known: tuple[str, ...]) -> list[tuple[str, dict]]:
+    """The object items of a list field (deliveries, strata), each with its error path.
+
+    Problems with the list itself, an item that is not an object, and unknown keys go into
+    ``errors`` named by their path (``strata[2].colour``).
+    """
     if value in (None, []):
         return []
     if not isinstance(value, list):
-        errors["deliveries"] = "must be a list of deliveries"
+        errors[field] = f"must be a list of {field}"
         return []
-    if len(value) > MAX_DELIVERIES:
-        errors["deliveries"] = f"must hold at most {MAX_DELIVERIES} deliveries, got {len(value)}"
+    if len(value) > limit:
+        errors[field] = f"must hold at most {limit} {field}, got {len(value)}"
         return []
+    names = ", ".join(known)
     out = []
     for i, item in enumerate(value):
-        where = f"deliveries[{i}]"
+        where = f"{field}[{i}]"
         if not isinstance(item, dict):
-            errors[where] = "must be an object with docket, volume_m3, batched_at, discharged_at, slump_mm"
+            errors[where] = f"must be an object with {names}"
             continue
-        extra = sorted(set(item) - {"docket", "volume_m3", "batched_at", "discharged_at", "slump_mm"})
-        for key in extra:
-            errors[f"{where}.{str(key)[:40]}"] = ("is not a delivery field (known: docket, volume_m3, "
-                                                  "batched_at, discharged_at, slump_mm)")
+        for key in sorted(set(item) - set(known)):
+            errors[f"{where}.{str(key)[:40]}"] = f"is not a {noun} field (known: {names})"
+        out.append((where, item))
+    return out
+
+
+def _deliveries(value: Any, errors: dict[str, str]) -> list[dict[str, Any]]:
+    out = []
+    for where, item in _items(value, errors, "deliveries", "delivery", MAX_DELIVERIES,
+                              ("docket", "volume_m3", "batched_at", "discharged_at", "slump_mm")):
         row: dict[str, Any] = {}
         docket = _text(f"{where}.docket", item.get("docket"), 50, errors)
         if docket:
@@ -360,24 +373,9 @@ def _deliveries(value: Any, errors: dict[str, str]) -> list[dict[str, Any]]:
 
 
 def _strata(value: Any, errors: dict[str, str], ground: GroundModel | None) -> list[dict[str, Any]]:
-    if value in (None, []):
-        return []
-    if not isinstance(value, list):
-        errors["strata"] = "must be a list of strata"
-        return []
-    if len(value) > MAX_STRATA:
-        errors["strata"] = f"must hold at most {MAX_STRATA} strata, got {len(value)}"
-        return []
     out = []
-    for i, item in enumerate(value):
-        where = f"strata[{i}]"
-        if not isinstance(item, dict):
-            errors[where] = "must be an object with from_depth, to_depth, material, description"
-            continue
-        extra = sorted(set(item) - {"from_depth", "to_depth", "material", "description", "layer_index"})
-        for key in extra:
-            errors[f"{where}.{str(key)[:40]}"] = ("is not a stratum field (known: from_depth, to_depth, "
-                                                  "material, description, layer_index)")
+    for where, item in _items(value, errors, "strata", "stratum", MAX_STRATA,
+                              ("from_depth", "to_depth", "material", "description", "layer_index")):
         row: dict[str, Any] = {}
         ok = True
         for name, spec in STRATUM_NUMBERS.items():
