@@ -17,6 +17,7 @@ the queries give it.
 
 from __future__ import annotations
 
+import gc
 import os
 import sqlite3
 from dataclasses import dataclass
@@ -296,6 +297,7 @@ def build(conn: sqlite3.Connection, project_id: int, out_path: str | Path, *, ph
             sheet = data.pile_sheet(conn, project_id, status)
             yield from _pile_sheet(st, sheet, photo_dir)
             yield Tick(tick)
+            gc.freeze()
         yield PageBreak()
         yield from _register(st, review_q.nonconformances(conn, project_id))
         yield PageBreak()
@@ -306,7 +308,15 @@ def build(conn: sqlite3.Connection, project_id: int, out_path: str | Path, *, ph
     tmp = out_path.with_name(out_path.name + ".part")
     doc = _Doc(str(tmp), footer, title=f"Certification record: {project.name}", author="Toeline",
                subject="Pile certification record")
-    doc.build(LazyStory(story()))
+    # The finished pages stay in memory until reportlab writes the file, so the heap grows with
+    # the project; Python's cyclic collector would walk that growing heap again and again
+    # (the 5,000-pile build took 5.7 times the 1,000-pile one in CPU). Objects that survive
+    # are moved out of its sight (gc.freeze) as each pile's sheet is laid out.
+    gc.collect()
+    try:
+        doc.build(LazyStory(story()))
+    finally:
+        gc.unfreeze()
     os.replace(tmp, out_path)
     return BuildResult(str(out_path), doc.page, total, head, chain.ok)
 
