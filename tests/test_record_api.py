@@ -461,3 +461,17 @@ def test_pile_list_is_sent_again_only_after_a_change(client, auth, site):
     assert changed.status_code == 200 and changed.headers["ETag"] != etag
     a1 = next(p for p in changed.get_json()["piles"] if p["mark"] == "A1")
     assert a1["version"] == 1
+
+
+def test_pile_list_updated_row_by_row_equals_a_fresh_build(app, client, auth, site):
+    auth.login(site["inspector"])
+    url = f"/api/v1/projects/{site['own']}/piles"
+    put(client, auth, site["own"], "A2", full_record(site, "A2"))
+    client.get(url)  # cached at this head
+    put(client, auth, site["own"], "A1", full_record(site, "A1", easting=500.5))  # A2 rechecked too
+    put(client, auth, site["own"], "B1", full_record(site, "B1"))
+    updated = client.get(url).get_json()
+    app.extensions.pop("toeline.pile_lists", None)  # forget the cache: the list is built whole
+    fresh = client.get(url).get_json()
+    assert updated == fresh
+    assert {p["mark"]: p["version"] for p in fresh["piles"]}["A1"] == 1

@@ -121,3 +121,19 @@ def entries(conn: sqlite3.Connection, project_id: int | None, limit: int = 200) 
     return conn.execute(
         "SELECT * FROM audit_log WHERE COALESCE(project_id, 0) = COALESCE(?, 0) "
         "ORDER BY seq DESC LIMIT ?", (project_id, limit)).fetchall()
+
+
+def head(conn: sqlite3.Connection, project_id: int | None) -> tuple[int, str]:
+    """(seq, hash) of the newest entry in the project's chain ((0, GENESIS) when empty)."""
+    row = conn.execute(
+        "SELECT seq, hash FROM audit_log WHERE COALESCE(project_id, 0) = COALESCE(?, 0) "
+        "ORDER BY seq DESC LIMIT 1", (project_id,)).fetchone()
+    return (row["seq"], row["hash"]) if row else (0, GENESIS)
+
+
+def entries_after(conn: sqlite3.Connection, project_id: int | None, seq: int,
+                  limit: int = 500) -> list[sqlite3.Row]:
+    """Entries of one chain after ``seq``, oldest first (at most ``limit``)."""
+    return conn.execute(
+        "SELECT * FROM audit_log WHERE COALESCE(project_id, 0) = COALESCE(?, 0) AND seq > ? "
+        "ORDER BY seq LIMIT ?", (project_id, seq, limit)).fetchall()
