@@ -11,20 +11,13 @@ import pytest
 from design_core import Rules
 from fieldapp import db
 from fieldapp.queries import audit, caps, ground, piles, projects
+from tests.test_setup_screens import pile_values
 
 LAYERS = [dict(top_level_m=10.0, bottom_level_m=5.0, material="cohesive", unit_weight_kn_m3=19.0, cu_kpa=60.0),
           dict(top_level_m=5.0, bottom_level_m=-20.0, material="cohesionless", unit_weight_kn_m3=20.0,
                phi_deg=34.0)]
 
 
-def pile_values(mark, gm_id, cap_id=None, **changes):
-    values = {"mark": mark, "cap_id": cap_id, "ground_model_id": gm_id, "pile_type": "bored",
-              "easting_m": 100.0, "northing_m": 200.0, "cutoff_level_m": 9.0, "toe_level_m": -5.0,
-              "diameter_mm": 600.0, "compression_kn": 900.0, "tension_kn": 0.0, "shear_kn": 20.0,
-              "moment_knm": 0.0, "n_bars": 8, "bar_mm": 20.0, "cage_length_m": 8.0, "fc_mpa": 40.0,
-              "fy_mpa": 500.0, "exposure_class": "XC2", "cover_mm": 75.0, "head": "free"}
-    values.update(changes)
-    return values
 
 
 @pytest.fixture
