@@ -502,6 +502,9 @@ class _Profile:
         force = self.perim * self.piece_h * self.coef.sum(axis=1)
         self.cum_top = np.concatenate([[0.0], np.cumsum(force)[:-1]])
         self.neg_piece_bot = -self.piece_bot
+        for arr in (self.piece_top, self.piece_bot, self.piece_h, self.coef, self.cum_top,
+                    self.neg_piece_bot):
+            arr.setflags(write=False)  # a profile may be shared between callers (shaft_profile)
 
     def shaft_to(self, levels: np.ndarray) -> np.ndarray:
         """Ultimate shaft force (kN) from the top of the shaft down to each level."""
@@ -514,6 +517,34 @@ class _Profile:
         for j in range(c.shape[1] - 2, -1, -1):  # Horner over the polynomial's few terms
             acc = acc * s + c[:, j]
         return self.cum_top[i] + self.perim * self.piece_h[i] * s * acc
+
+
+PROFILE_CACHE_SIZE = 128
+
+
+@lru_cache(maxsize=PROFILE_CACHE_SIZE)
+def _shared_profile(ground: GroundModel, diameter: float, top_level: float, rules: Rules,
+                    max_step: float, gauss_points: int) -> _Profile:
+    return _Profile(ground, diameter, top_level, rules, ground.bottom, max_step, gauss_points)
+
+
+def shaft_profile(ground: GroundModel, diameter: float, top_level: float, rules: Rules,
+                  deepest: float, max_step: float = MAX_STEP_M,
+                  gauss_points: int = GAUSS_POINTS) -> _Profile:
+    """The shaft profile of one pile geometry, good for every toe down to ``deepest`` (m).
+
+    Calls with equal ground model, diameter (m), top level (m), rules and integration controls
+    share one profile built down to the bottom of the ground model (the last
+    ``PROFILE_CACHE_SIZE`` kept): the pieces above any toe are the same whether the grid stops
+    at the toe or runs on below it, so a shared profile gives the same numbers as one built
+    for the call. A re-saved record, or piles of one diameter and cut-off in one ground model,
+    then skip rebuilding the grid. Inputs that cannot be compared (not hashable) get their own
+    profile, built down to ``deepest``.
+    """
+    try:
+        return _shared_profile(ground, diameter, top_level, rules, max_step, gauss_points)
+    except TypeError:  # an unhashable ground model or rules
+        return _Profile(ground, diameter, top_level, rules, deepest, max_step, gauss_points)
 
 
 def _design(shaft: np.ndarray | float, base: np.ndarray | float, rules: Rules):
@@ -583,7 +614,7 @@ def axial_capacity(ground: GroundModel, diameter: float, top_level: float, toe_l
     toe_level = number("toe_level", toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
     _check_toes(ground, top_level, np.array([toe_level]), "toe_level")
     toe_level = max(toe_level, ground.bottom)
-    prof = _Profile(ground, diameter, top_level, rules, toe_level, max_step, gauss_points)
+    prof = shaft_profile(ground, diameter, top_level, rules, toe_level, max_step, gauss_points)
 
     # Shaft rows: cut the shaft at layer boundaries and at the bottom of the exclusion zone.
     cuts = [prof.z_start, toe_level, prof.excl_bottom] + list(prof.tops[1:])
@@ -694,7 +725,8 @@ def capacity_curve(ground: GroundModel, diameter: float, top_level: float, toe_l
         raise ValueError("toe_levels must be a non-empty 1-D array of levels (m)")
     _check_toes(ground, top_level, toes, "toe_levels")
     toes = np.maximum(toes, ground.bottom)
-    prof = _Profile(ground, diameter, top_level, rules, float(toes.min()), max_step, gauss_points)
+    prof = shaft_profile(ground, diameter, top_level, rules, float(toes.min()), max_step,
+                         gauss_points)
     shaft = prof.shaft_to(toes)
     q, _, _ = prof.base_pressure(toes)
     base = q * pile_area(diameter)

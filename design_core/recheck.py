@@ -69,6 +69,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any, Iterable
 
 import numpy as np
@@ -87,6 +88,7 @@ CURVE_MAX_POINTS = 400
 CURVE_BELOW_TOE_M = 5.0    # the drawn curve runs this far below the deepest toe
 WINKLER_NODES = 100        # about 0.4 % from Hetenyi on a 30 m pile (tests/validation)
 LEVEL_TOL_M = 1e-6
+SHARED_CACHE_SIZE = 256    # section curves and Winkler solves kept between calls (_shared_*)
 
 
 class _NotChecked(Exception):
@@ -356,6 +358,17 @@ def _tension_design(pile: _Pile, shaft: float) -> tuple[float, float]:
     return shaft_t / rules.fs_tension + rules.pile_weight_factor * weight, weight
 
 
+@lru_cache(maxsize=SHARED_CACHE_SIZE)
+def _shared_section(diameter: float, cover_mm: float, n_bars: int, bar_mm: float, fc_mpa: float,
+                    fy_mpa: float) -> InteractionCurve:
+    """``section_interaction`` of one section (m, mm, MPa), kept for the next pile with exactly
+    the same section (a site has a handful); the arrays are read-only as the curve is shared."""
+    curve = section_interaction(diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa)
+    for arr in (curve.n, curve.m, curve.c):
+        arr.setflags(write=False)
+    return curve
+
+
 def _section(pile: _Pile, cache: _Cache | None) -> InteractionCurve:
     d = pile.design
     key = (round(pile.diameter, 6), round(pile.cover_mm, 3), d.n_bars, d.bar_mm,
@@ -365,8 +378,8 @@ def _section(pile: _Pile, cache: _Cache | None) -> InteractionCurve:
     if cache is not None and key in cache.sections:
         pile.section_memo = cache.sections[key]
         return pile.section_memo
-    curve = section_interaction(pile.diameter, pile.cover_mm, d.n_bars, d.bar_mm, pile.fc_mpa,
-                                d.fy_mpa)
+    curve = _shared_section(pile.diameter, pile.cover_mm, d.n_bars, d.bar_mm, pile.fc_mpa,
+                            d.fy_mpa)
     if cache is not None:
         cache.sections[key] = curve
     pile.section_memo = curve
@@ -509,25 +522,39 @@ def _cu_at(layer, level: float) -> float:
     return layer.cu + (bottom - layer.cu) * frac
 
 
-def _winkler(pile: _Pile, geometry):
-    """Head deflection per unit H and M on the pile's springs; see ``_lateral_analysis``."""
-    rules, g = pile.rules, pile.ground
+def _winkler_inputs(pile: _Pile, geometry) -> tuple:
+    """Everything ``_winkler_solve`` uses, as a dictionary key; see ``_lateral_analysis``."""
+    rules = pile.rules
     i, z_top, free, embedded = geometry
-    layer = g.layers[i]
+    layer = pile.ground.layers[i]
     if layer.material == "cohesive":
-        k0 = rules.spring_per_cu * _cu_at(layer, z_top)
-
-        def spring(z):
-            return np.where(z >= free - 1e-9, k0, 0.0)
+        springs = ("cohesive", rules.spring_per_cu * _cu_at(layer, z_top))
     else:
-        nh = rules.spring_nh_sand
+        springs = ("cohesionless", rules.spring_nh_sand)
+    return (springs, free, embedded, pile.diameter, pile.fc_mpa, rules.ei_cracked_factor,
+            pile.design.head)
 
+
+@lru_cache(maxsize=SHARED_CACHE_SIZE)
+def _winkler_solve(springs: tuple[str, float], free: float, embedded: float, diameter: float,
+                   fc_mpa: float, ei_factor: float, head: str):
+    """Head deflection per unit H and M (depth m, deflections m) and EI (kNm2) of a pile of
+    ``free`` + ``embedded`` m on springs ("cohesive", k kN/m per m below the free length) or
+    ("cohesionless", n_h kN/m3: k = n_h z below it). Equal inputs share one solve (the arrays
+    are read-only); the lengths are already rounded to 50 mm (``_lateral_geometry``), so a
+    re-saved record or a like pile finds it."""
+    kind, value = springs
+    if kind == "cohesive":
         def spring(z):
-            return nh * np.maximum(z - free, 0.0)
-    ec = 4700.0 * math.sqrt(pile.fc_mpa) * 1000.0          # kPa
-    ei = rules.ei_cracked_factor * ec * math.pi * pile.diameter ** 4 / 64.0
-    depth, unit = winkler_unit_responses(ei, free + embedded, spring, pile.design.head,
-                                         WINKLER_NODES)
+            return np.where(z >= free - 1e-9, value, 0.0)
+    else:
+        def spring(z):
+            return value * np.maximum(z - free, 0.0)
+    ec = 4700.0 * math.sqrt(fc_mpa) * 1000.0          # kPa
+    ei = ei_factor * ec * math.pi * diameter ** 4 / 64.0
+    depth, unit = winkler_unit_responses(ei, free + embedded, spring, head, WINKLER_NODES)
+    depth.setflags(write=False)
+    unit.setflags(write=False)
     return depth, unit, ei
 
 
@@ -560,15 +587,13 @@ def _lateral_analysis(pile: _Pile, section: InteractionCurve | None, cache: _Cac
         broms = broms_lateral("cohesionless", pile.diameter, embedded, d.head, free,
                               unit_weight=gamma, phi=layer.phi, yield_moment=my)
         soil = f"phi {layer.phi:g} deg, gamma' {gamma:.1f} kN/m3 from layer {i}"
+    key = _winkler_inputs(pile, geometry)
     if cache is None:
-        depth, unit, ei = _winkler(pile, geometry)
+        depth, unit, ei = _winkler_solve(*key)
     else:
-        key = (pile.gkey, round(pile.diameter, 6), d.head, geometry, round(pile.fc_mpa, 3))
         found = cache.lateral.get(key)
         if found is None:
-            found = cache.lateral[key] = _winkler(pile, geometry)
-            if isinstance(key[0], tuple):
-                cache.keep.append(g)
+            found = cache.lateral[key] = _winkler_solve(*key)
         depth, unit, ei = found
     return broms, depth, unit, ei, soil
 

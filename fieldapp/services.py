@@ -476,13 +476,15 @@ def _pile_design(pile_row) -> PileDesign:
 
 
 def load_inputs(conn: sqlite3.Connection, project_id: int, pile_row,
-                record: dict[str, Any] | None = None, base: RecheckInputs | None = None) -> RecheckInputs:
+                record: dict[str, Any] | None = None, base: RecheckInputs | None = None,
+                with_group: bool = True) -> RecheckInputs:
     """Design, ground model, current rules and cap group for one pile.
 
     The cap group carries the as-built positions of the cap's piles from their newest
     records, with this record's easting/northing (when given) in place of the pile's own.
     ``base`` (inputs already read for the same pile) supplies design, ground and rules, so
-    only the cap group is read again.
+    only the cap group is read again. ``with_group=False`` leaves the cap group out (None):
+    enough to validate a record, which does not look at the cap.
     """
     if base is not None:
         rule_set = projects.RuleSet(project_id, base.rules_version, base.rules, "", "")
@@ -492,7 +494,7 @@ def load_inputs(conn: sqlite3.Connection, project_id: int, pile_row,
         design = _pile_design(pile_row)
         ground = ground_q.load_ground_model(conn, pile_row.ground_model_id)
     group = None
-    if pile_row.cap_id is not None:
+    if with_group and pile_row.cap_id is not None:
         positions = records.current_positions_in_cap(conn, pile_row.cap_id)
         positions.pop(pile_row.mark, None)
         if record and record.get("easting") is not None and record.get("northing") is not None:
@@ -699,7 +701,7 @@ def save_record(conn: sqlite3.Connection, project_id: int, pile_row, user, clien
     if base_version is not None and (isinstance(base_version, bool) or not isinstance(base_version, int)
                                      or base_version < 0):
         raise RecordInvalid({"base_version": "must be a whole number of 0 or more, or null"})
-    inputs = load_inputs(conn, project_id, pile_row)
+    inputs = load_inputs(conn, project_id, pile_row, with_group=False)
     clean, errors = validate_record(raw, inputs.rules, inputs.design, inputs.ground)
     if errors:
         raise RecordInvalid(errors)
@@ -720,25 +722,24 @@ def save_record(conn: sqlite3.Connection, project_id: int, pile_row, user, clien
             message = guard(conn, pile_row, amendment)
             if message:
                 raise PileLocked(message)
-        stored = records.stored_version(conn, pile_row.id)
+        stored, previous_position = records.stored_position(conn, pile_row.id)
         base = base_version or 0
         if base < stored:
             raise RecordConflict(records.current(conn, pile_row.id), stored)
         if base > stored:
             raise RecordInvalid({"base_version": f"must be at most the stored version {stored}, got {base}"})
         version = stored + 1
-        previous = records.current(conn, pile_row.id)
-        previous = previous.record if previous else {}
-        records.insert(conn, project_id=project_id, pile_id=pile_row.id, version=version,
-                       client_id=client_id, record=clean, progress=clean["progress"],
-                       verdict=verdict.verdict, worst_utilisation=worst, checks=checks,
-                       borrowed=borrowed, notes=list(verdict.notes),
-                       rules_version=inputs.rules_version, created_by=user.id)
+        saved = records.insert(conn, project_id=project_id, pile_id=pile_row.id, version=version,
+                               client_id=client_id, record=clean, progress=clean["progress"],
+                               verdict=verdict.verdict, worst_utilisation=worst, checks=checks,
+                               borrowed=borrowed, notes=list(verdict.notes),
+                               rules_version=inputs.rules_version, created_by=user.id,
+                               created_by_name=user.label)
         records.set_pile_state(conn, pile_row.id, progress=clean["progress"], verdict=verdict.verdict,
                                worst_utilisation=worst, version=version)
         for hook in AFTER_SAVE:
             hook(conn, pile_row, version, amendment)
-        if pile_row.cap_id is not None and _position(previous) != _position(clean):
+        if pile_row.cap_id is not None and previous_position != _position(clean):
             recheck_cap_mates(conn, project_id, pile_row, user)
         short = [c["code"] for c in checks if c["ok"] is False]
         audit.append(conn, project_id, user.label, "record saved", pile_row.mark,
@@ -746,7 +747,7 @@ def save_record(conn: sqlite3.Connection, project_id: int, pile_row, user, clien
                       "progress": clean["progress"], "client_id": client_id,
                       "rules_version": inputs.rules_version,
                       **({"amendment": amendment} if amendment else {})})
-    return SaveOutcome(records.get_version(conn, pile_row.id, version), True)
+    return SaveOutcome(saved, True)
 
 
 def _position(record: dict[str, Any]) -> tuple[float, float] | None:

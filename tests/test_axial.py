@@ -578,3 +578,25 @@ def test_strata_toe_outside_the_model_is_refused():
 def test_no_strata_leaves_the_model_unchanged():
     g, used = ground_from_strata(model(), 10.0, [], -20.0)
     assert g == model() and used == []
+
+
+@PROPS
+@given(st.data())
+def test_a_shared_profile_gives_the_numbers_of_one_built_for_the_toe(data):
+    # shaft_profile shares one grid, built to the bottom of the ground model, between calls with
+    # equal inputs; the pieces above a toe do not depend on where the grid stops, so the shaft
+    # read from it must equal (to rounding) the shaft from a grid that stops at that toe.
+    from design_core.axial import _Profile, shaft_profile
+
+    g = data.draw(grounds())
+    d, top = _geometry(data.draw, g)
+    rules = Rules(alpha_rule=data.draw(st.sampled_from(["api", "power"])))
+    start = min(top, g.top)
+    toe = data.draw(st.floats(g.bottom, start - 1e-3))
+    shared = shaft_profile(g, d, top, rules, toe)
+    own = _Profile(g, d, top, rules, toe)
+    assert shaft_profile(GroundModel(list(g.layers), g.water_level), d, top, rules, toe) is shared
+    levels = np.linspace(start, toe, 25)
+    np.testing.assert_allclose(shared.shaft_to(levels), own.shaft_to(levels), rtol=1e-12, atol=1e-9)
+    assert axial_capacity(g, d, top, toe, rules=rules).shaft == pytest.approx(
+        float(own.shaft_to(np.array([toe]))[0]), rel=1e-12, abs=1e-9)

@@ -358,3 +358,40 @@ def test_cfa_pile_has_no_open_base_so_debris_is_not_asked_for():
     bored = recheck(PileDesign("B1", 0.6, 9.0, -2.0, pile_type="bored"), asbuilt, ground)
     assert cfa.check("base_debris").ok is True and "no open base" in cfa.check("base_debris").reason
     assert bored.check("base_debris").ok is None
+
+
+def _verdict_dict(v):
+    return [c.to_dict() for c in v.checks], v.verdict, v.notes
+
+
+@pytest.mark.parametrize("record_change", [
+    {"concrete_mpa": 40.0},          # another section curve and EI
+    {"measured_depth": 17.3},        # another toe: curve read lower, another Winkler length
+    {"diameter_mm": 620.0},          # another profile, section and Winkler solve
+])
+def test_analyses_kept_between_calls_follow_every_input(record_change):
+    # The section curve, shaft profile and Winkler solve are kept between rechecks for equal
+    # inputs (design_core.recheck._shared_*, design_core.axial.shaft_profile). A changed input
+    # must give the result of a recheck made from nothing, and the kept results cannot be edited.
+    import importlib
+
+    from design_core import axial
+    rc = importlib.import_module("design_core.recheck")  # the package exports a function of its name
+
+    def clear():
+        rc._shared_section.cache_clear()
+        rc._winkler_solve.cache_clear()
+        axial._shared_profile.cache_clear()
+
+    clear()
+    first = recheck(DESIGN, ASBUILT, GROUND, group=CAP)
+    changed = replace(ASBUILT, **record_change)
+    warm = recheck(DESIGN, changed, GROUND, group=CAP)
+    assert rc._shared_section.cache_info().currsize >= 1
+    clear()
+    cold = recheck(DESIGN, changed, GROUND, group=CAP)
+    assert _verdict_dict(warm) == _verdict_dict(cold)
+    assert _verdict_dict(warm) != _verdict_dict(first)
+    assert _verdict_dict(recheck(DESIGN, ASBUILT, GROUND, group=CAP)) == _verdict_dict(first)
+    with pytest.raises(ValueError, match="read-only"):
+        warm.details["interaction"].m[0] = 0.0

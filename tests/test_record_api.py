@@ -16,7 +16,7 @@ import pytest
 
 from design_core.axial import capacity_curve, required_toe_level
 from fieldapp import db, services
-from fieldapp.queries import audit, caps, ground, piles, projects, records
+from fieldapp.queries import audit, caps, ground, piles, projects, records, users
 
 CLAY = [
     dict(top_level_m=100.0, bottom_level_m=99.0, material="ignore", unit_weight_kn_m3=18.0,
@@ -475,3 +475,26 @@ def test_pile_list_updated_row_by_row_equals_a_fresh_build(app, client, auth, si
     fresh = client.get(url).get_json()
     assert updated == fresh
     assert {p["mark"]: p["version"] for p in fresh["piles"]}["A1"] == 1
+
+
+def test_the_saved_version_returned_equals_the_one_read_back(app, client, auth, site):
+    # save_record answers from what it stored (records.insert) instead of reading the row again;
+    # that must be exactly what a later read gives, for the history and for repeats.
+    auth.login(site["inspector"])
+    r = put(client, auth, site["own"], "A1", full_record(site, "A1", notes="ü, 1.5e-3 and ½"))
+    assert r.status_code == 200
+    with app.app_context():
+        conn = db.get_db()
+        pile = piles.get_pile(conn, site["own"], "A1")
+        inspector = users.by_email(conn, site["inspector"])
+        with db.write(conn):
+            saved = records.insert(
+                conn, project_id=site["own"], pile_id=pile.id, version=2, client_id="t-1",
+                record=full_record(site, "A1", easting=math.pi), progress="logged",
+                verdict="meets design", worst_utilisation=0.1 + 0.2, checks=[{"code": "x", "ok": None}],
+                borrowed=[], notes=["n"], rules_version=1, created_by=inspector.id,
+                created_by_name=inspector.label)
+        assert saved == records.get_version(conn, pile.id, 2)
+        assert records.stored_position(conn, pile.id) == (1, (500.02, 200.0))
+        first = records.get_version(conn, pile.id, 1)
+        assert r.get_json() == first.answer()

@@ -124,16 +124,36 @@ def stored_version(conn: sqlite3.Connection, pile_id: int) -> int:
 def insert(conn: sqlite3.Connection, *, project_id: int, pile_id: int, version: int, client_id: str,
            record: dict[str, Any], progress: str, verdict: str, worst_utilisation: float | None,
            checks: list[dict[str, Any]], borrowed: list[dict[str, Any]], notes: list[str],
-           rules_version: int, created_by: int | None) -> int:
-    """Store one version; returns the row id. Run inside ``db.write``."""
+           rules_version: int, created_by: int | None, created_by_name: str = "") -> RecordVersion:
+    """Store one version; returns it as :func:`get_version` would read it back (its lists and
+    dicts parsed from the JSON stored, so a later read gives equal values). Run inside
+    ``db.write``. ``created_by_name``: the user's label (name, else email), as the reads give."""
+    texts = (json.dumps(record, sort_keys=True), json.dumps(checks), json.dumps(borrowed),
+             json.dumps(notes))
+    created_at = now_iso()
     cur = conn.execute(
         "INSERT INTO pile_records (project_id, pile_id, version, client_id, record_json, progress, "
         "verdict, worst_utilisation, checks_json, borrowed_json, notes_json, rules_version, "
         "created_by, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-        (project_id, pile_id, version, client_id, json.dumps(record, sort_keys=True), progress,
-         verdict, worst_utilisation, json.dumps(checks), json.dumps(borrowed), json.dumps(notes),
-         rules_version, created_by, now_iso()))
-    return cur.lastrowid
+        (project_id, pile_id, version, client_id, texts[0], progress, verdict, worst_utilisation,
+         texts[1], texts[2], texts[3], rules_version, created_by, created_at))
+    record_, checks_, borrowed_, notes_ = (json.loads(t) for t in texts)
+    return RecordVersion(cur.lastrowid, project_id, pile_id, version, client_id, record_, progress,
+                         verdict, worst_utilisation, checks_, borrowed_, notes_, rules_version,
+                         created_by, created_by_name if created_by is not None else "", created_at)
+
+
+def stored_position(conn: sqlite3.Connection, pile_id: int) -> tuple[int, tuple[float, float] | None]:
+    """``piles.current_version`` of a pile and the as-built (easting, northing) in m of that
+    version's record (None when not both surveyed, or nothing recorded)."""
+    row = conn.execute(
+        "SELECT p.current_version AS version, json_extract(r.record_json, '$.easting') AS e, "
+        "json_extract(r.record_json, '$.northing') AS n FROM piles p LEFT JOIN pile_records r "
+        "ON r.pile_id = p.id AND r.version = p.current_version WHERE p.id = ?", (pile_id,)).fetchone()
+    if row is None:
+        raise LookupError(f"pile {pile_id} does not exist")
+    position = None if row["e"] is None or row["n"] is None else (float(row["e"]), float(row["n"]))
+    return int(row["version"]), position
 
 
 def set_pile_state(conn: sqlite3.Connection, pile_id: int, *, progress: str, verdict: str,
