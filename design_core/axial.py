@@ -47,6 +47,8 @@ and ``capacity_curve`` use one grid and agree to rounding.
 from __future__ import annotations
 
 import math
+import threading
+from collections import OrderedDict
 from dataclasses import asdict, dataclass, field
 from functools import lru_cache
 from typing import Any
@@ -520,12 +522,8 @@ class _Profile:
 
 
 PROFILE_CACHE_SIZE = 128
-
-
-@lru_cache(maxsize=PROFILE_CACHE_SIZE)
-def _shared_profile(ground: GroundModel, diameter: float, top_level: float, rules: Rules,
-                    max_step: float, gauss_points: int) -> _Profile:
-    return _Profile(ground, diameter, top_level, rules, ground.bottom, max_step, gauss_points)
+_PROFILES: OrderedDict = OrderedDict()
+_PROFILES_LOCK = threading.Lock()
 
 
 def shaft_profile(ground: GroundModel, diameter: float, top_level: float, rules: Rules,
@@ -534,17 +532,35 @@ def shaft_profile(ground: GroundModel, diameter: float, top_level: float, rules:
     """The shaft profile of one pile geometry, good for every toe down to ``deepest`` (m).
 
     Calls with equal ground model, diameter (m), top level (m), rules and integration controls
-    share one profile built down to the bottom of the ground model (the last
-    ``PROFILE_CACHE_SIZE`` kept): the pieces above any toe are the same whether the grid stops
-    at the toe or runs on below it, so a shared profile gives the same numbers as one built
-    for the call. A re-saved record, or piles of one diameter and cut-off in one ground model,
-    then skip rebuilding the grid. Inputs that cannot be compared (not hashable) get their own
-    profile, built down to ``deepest``.
+    share one profile (the last ``PROFILE_CACHE_SIZE`` kept) while it reaches deep enough, and
+    a deeper call builds it again: the pieces above any toe are the same wherever the grid
+    stops below it, so a shared profile gives the numbers of one built for the call. A
+    re-saved record, or piles of one diameter and cut-off in one ground model, then skip
+    rebuilding the grid. Inputs that cannot be compared (not hashable) get their own profile.
     """
+    key = (ground, diameter, top_level, rules, max_step, gauss_points)
     try:
-        return _shared_profile(ground, diameter, top_level, rules, max_step, gauss_points)
+        hash(key)
     except TypeError:  # an unhashable ground model or rules
         return _Profile(ground, diameter, top_level, rules, deepest, max_step, gauss_points)
+    with _PROFILES_LOCK:
+        prof = _PROFILES.get(key)
+        if prof is not None and prof.piece_bot[-1] <= deepest:
+            _PROFILES.move_to_end(key)
+            return prof
+    prof = _Profile(ground, diameter, top_level, rules, deepest, max_step, gauss_points)
+    with _PROFILES_LOCK:
+        _PROFILES[key] = prof
+        _PROFILES.move_to_end(key)
+        while len(_PROFILES) > PROFILE_CACHE_SIZE:
+            _PROFILES.popitem(last=False)
+    return prof
+
+
+def clear_shared_profiles() -> None:
+    """Forget the profiles ``shaft_profile`` keeps (benchmarks of a first call; tests)."""
+    with _PROFILES_LOCK:
+        _PROFILES.clear()
 
 
 def _design(shaft: np.ndarray | float, base: np.ndarray | float, rules: Rules):

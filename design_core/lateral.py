@@ -339,10 +339,8 @@ def solve_pentadiagonal(d, e, f, rhs):
     return x.reshape(r.shape)
 
 
-def winkler_unit_responses(ei: float, length: float, spring, head: str = "free",
-                           nodes: int = 200):
-    """Depth (m) and the deflections (m) for a unit head shear (1 kN) and a unit head moment
-    (1 kNm), as two columns; the system is linear so any load is a sum of these."""
+def _winkler_system(ei: float, length: float, spring, head: str, nodes: int):
+    """(depth, d, e, f, rhs) of the unit-load system: see ``winkler_unit_responses``."""
     ei = _positive("ei", ei)
     length = _positive("length", length)
     if head not in HEADS:
@@ -368,8 +366,80 @@ def winkler_unit_responses(ei: float, length: float, spring, head: str = "free",
     if head == "free":
         rhs[0, 1] = h ** 2 / ei                      # unit M
         rhs[1, 1] = -h ** 2 / ei
-    y = solve_pentadiagonal(d, e, f, rhs)
-    return depth, y
+    return depth, d, e, f, rhs
+
+
+def winkler_unit_responses(ei: float, length: float, spring, head: str = "free",
+                           nodes: int = 200):
+    """Depth (m) and the deflections (m) for a unit head shear (1 kN) and a unit head moment
+    (1 kNm), as two columns; the system is linear so any load is a sum of these."""
+    depth, d, e, f, rhs = _winkler_system(ei, length, spring, head, nodes)
+    return depth, solve_pentadiagonal(d, e, f, rhs)
+
+
+def solve_pentadiagonal_many(d, e, f, rhs) -> np.ndarray:
+    """Solve m systems of one size at once: d (m, n), e (m, n - 1), f (m, n - 2), rhs (m, n, k).
+
+    The steps of ``solve_pentadiagonal`` (LDL^T without pivoting, for symmetric positive-definite
+    bands), each made on all m systems together, so the Python loop runs over the n rows once
+    rather than once per system. Returns x (m, n, k). ValueError if any system is not positive
+    definite.
+    """
+    d = np.asarray(d, dtype=float).T                # (n, m): one row of every system at a time
+    e = np.asarray(e, dtype=float).T
+    f = np.asarray(f, dtype=float).T
+    z = np.array(np.swapaxes(np.asarray(rhs, dtype=float), 0, 1))   # (n, m, k), a copy
+    n = d.shape[0]
+    if not (e.shape[0] == n - 1 and f.shape[0] == n - 2 and z.shape[0] == n
+            and e.shape[1:] == f.shape[1:] == d.shape[1:] == z.shape[1:2]):
+        raise ValueError("band and right-hand side sizes do not match")
+    dd = np.empty_like(d)
+    a = np.zeros_like(d)          # L[i+1, i]
+    b = np.zeros_like(d)          # L[i+2, i]
+    for i in range(n):
+        di = d[i].copy()
+        if i >= 1:
+            di -= a[i - 1] * a[i - 1] * dd[i - 1]
+        if i >= 2:
+            di -= b[i - 2] * b[i - 2] * dd[i - 2]
+        if not np.all(di > 0.0):
+            raise ValueError("pentadiagonal system is not positive definite")
+        dd[i] = di
+        if i < n - 1:
+            ai = e[i].copy()
+            if i >= 1:
+                ai -= b[i - 1] * a[i - 1] * dd[i - 1]
+            a[i] = ai / di
+        if i < n - 2:
+            b[i] = f[i] / di
+    for i in range(1, n):
+        z[i] -= a[i - 1, :, None] * z[i - 1]
+        if i >= 2:
+            z[i] -= b[i - 2, :, None] * z[i - 2]
+    z /= dd[:, :, None]
+    for i in range(n - 2, -1, -1):
+        z[i] -= a[i, :, None] * z[i + 1]
+        if i <= n - 3:
+            z[i] -= b[i, :, None] * z[i + 2]
+    return np.swapaxes(z, 0, 1)
+
+
+def winkler_unit_responses_many(cases) -> list:
+    """``winkler_unit_responses`` of many piles: ``cases`` is a sequence of (ei, length, spring,
+    head, nodes); returns [(depth, deflections)] in the same order, the same numbers as one call
+    per case. Systems of one size are solved together (``solve_pentadiagonal_many``)."""
+    systems = [_winkler_system(*case) for case in cases]
+    by_size: dict[int, list[int]] = {}
+    for j, system in enumerate(systems):
+        by_size.setdefault(system[1].size, []).append(j)
+    out: list = [None] * len(systems)
+    for members in by_size.values():
+        y = solve_pentadiagonal_many(
+            np.stack([systems[j][1] for j in members]), np.stack([systems[j][2] for j in members]),
+            np.stack([systems[j][3] for j in members]), np.stack([systems[j][4] for j in members]))
+        for row, j in enumerate(members):
+            out[j] = (systems[j][0], np.ascontiguousarray(y[row]))
+    return out
 
 
 def winkler_pile(ei: float, length: float, spring, shear: float, moment: float = 0.0,

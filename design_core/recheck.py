@@ -74,12 +74,14 @@ from typing import Any, Iterable
 
 import numpy as np
 
-from design_core.axial import CapacityCurve, capacity_curve, pile_weight
+from design_core.axial import CapacityCurve, capacity_curve, clear_shared_profiles, pile_weight
 from design_core.checks import Check, PileVerdict
 from design_core.ground import GroundModel, ground_from_strata
 from design_core.group import across_moment, group_shares
 from design_core.inputs import AsBuilt, CapGroup, PileDesign
-from design_core.lateral import broms_lateral, winkler_result, winkler_unit_responses
+from design_core.lateral import (
+    broms_lateral, winkler_result, winkler_unit_responses, winkler_unit_responses_many,
+)
 from design_core.rules import Rules
 from design_core.section import InteractionCurve, section_interaction
 
@@ -369,6 +371,15 @@ def _shared_section(diameter: float, cover_mm: float, n_bars: int, bar_mm: float
     return curve
 
 
+def clear_shared_analyses() -> None:
+    """Forget every result kept between calls for equal inputs (shaft profiles, section curves,
+    Winkler solves), so the next recheck works from nothing: for benchmarks of a first recheck
+    and for tests. Never needed for correctness: the keys hold every input."""
+    clear_shared_profiles()
+    _shared_section.cache_clear()
+    _winkler_solve.cache_clear()
+
+
 def _section(pile: _Pile, cache: _Cache | None) -> InteractionCurve:
     d = pile.design
     key = (round(pile.diameter, 6), round(pile.cover_mm, 3), d.n_bars, d.bar_mm,
@@ -535,14 +546,11 @@ def _winkler_inputs(pile: _Pile, geometry) -> tuple:
             pile.design.head)
 
 
-@lru_cache(maxsize=SHARED_CACHE_SIZE)
-def _winkler_solve(springs: tuple[str, float], free: float, embedded: float, diameter: float,
-                   fc_mpa: float, ei_factor: float, head: str):
-    """Head deflection per unit H and M (depth m, deflections m) and EI (kNm2) of a pile of
-    ``free`` + ``embedded`` m on springs ("cohesive", k kN/m per m below the free length) or
-    ("cohesionless", n_h kN/m3: k = n_h z below it). Equal inputs share one solve (the arrays
-    are read-only); the lengths are already rounded to 50 mm (``_lateral_geometry``), so a
-    re-saved record or a like pile finds it."""
+def _winkler_case(springs: tuple[str, float], free: float, embedded: float, diameter: float,
+                  fc_mpa: float, ei_factor: float, head: str) -> tuple:
+    """(ei, length, spring, head, nodes) for ``winkler_unit_responses`` from the inputs of
+    ``_winkler_inputs``: springs ("cohesive", k kN/m per m below the free length) or
+    ("cohesionless", n_h kN/m3: k = n_h z below it), EI = factor x E_c I_g (kNm2)."""
     kind, value = springs
     if kind == "cohesive":
         def spring(z):
@@ -552,10 +560,55 @@ def _winkler_solve(springs: tuple[str, float], free: float, embedded: float, dia
             return value * np.maximum(z - free, 0.0)
     ec = 4700.0 * math.sqrt(fc_mpa) * 1000.0          # kPa
     ei = ei_factor * ec * math.pi * diameter ** 4 / 64.0
-    depth, unit = winkler_unit_responses(ei, free + embedded, spring, head, WINKLER_NODES)
+    return ei, free + embedded, spring, head, WINKLER_NODES
+
+
+def _frozen_solve(depth, unit, ei):
     depth.setflags(write=False)
     unit.setflags(write=False)
     return depth, unit, ei
+
+
+@lru_cache(maxsize=SHARED_CACHE_SIZE)
+def _winkler_solve(springs: tuple[str, float], free: float, embedded: float, diameter: float,
+                   fc_mpa: float, ei_factor: float, head: str):
+    """Head deflection per unit H and M (depth m, deflections m) and EI (kNm2) of a pile of
+    ``free`` + ``embedded`` m (``_winkler_case``). Equal inputs share one solve (the arrays are
+    read-only); the lengths are already rounded to 50 mm (``_lateral_geometry``), so a re-saved
+    record or a like pile finds it."""
+    case = _winkler_case(springs, free, embedded, diameter, fc_mpa, ei_factor, head)
+    depth, unit = winkler_unit_responses(*case)
+    return _frozen_solve(depth, unit, case[0])
+
+
+def _solve_lateral_together(piles: list[_Pile], cache: _Cache) -> None:
+    """Every distinct Winkler system the piles' lateral checks will need, solved together
+    (``winkler_unit_responses_many``) into ``cache.lateral``; the same numbers as one by one.
+    Piles whose lateral check stops earlier (no lateral load, no toe, no soil) are skipped, and
+    any case the batch cannot take is left for the check itself to solve and report."""
+    keys = []
+    for pile in piles:
+        d = pile.design
+        if d.shear <= 0.0 and (d.moment <= 0.0 or d.head != "free"):
+            continue
+        if _toe_problem(pile):
+            continue
+        try:
+            key = _winkler_inputs(pile, _lateral_geometry(pile))
+        except (_NotChecked, ValueError, IndexError):
+            continue
+        if key not in cache.lateral:
+            cache.lateral[key] = None
+            keys.append(key)
+    try:
+        cases = [_winkler_case(*key) for key in keys]
+        solved = winkler_unit_responses_many(cases)
+    except ValueError:
+        for key in keys:
+            del cache.lateral[key]
+        return
+    for key, case, (depth, unit) in zip(keys, cases, solved):
+        cache.lateral[key] = _frozen_solve(depth, unit, case[0])
 
 
 def _lateral_analysis(pile: _Pile, section: InteractionCurve | None, cache: _Cache | None):
@@ -1008,6 +1061,7 @@ def recheck_project(items: Iterable, rules: Rules | None = None,
             continue
         if isinstance(key[0], tuple):
             cache.keep.append(pile.ground)
+    _solve_lateral_together(piles, cache)
     out: dict[str, PileVerdict] = {}
     for pile in piles:
         group = groups.get(pile.design.cap) if pile.design.cap else None

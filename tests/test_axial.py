@@ -596,7 +596,11 @@ def test_a_shared_profile_gives_the_numbers_of_one_built_for_the_toe(data):
     shared = shaft_profile(g, d, top, rules, toe)
     own = _Profile(g, d, top, rules, toe)
     assert shaft_profile(GroundModel(list(g.layers), g.water_level), d, top, rules, toe) is shared
+    deep = shaft_profile(g, d, top, rules, g.bottom)   # a deeper call builds it again, deeper
+    assert deep.piece_bot[-1] == pytest.approx(g.bottom)
+    assert shaft_profile(g, d, top, rules, toe) is deep  # which then serves the shallower toe
     levels = np.linspace(start, toe, 25)
-    np.testing.assert_allclose(shared.shaft_to(levels), own.shaft_to(levels), rtol=1e-12, atol=1e-9)
+    for prof in (shared, deep):
+        np.testing.assert_allclose(prof.shaft_to(levels), own.shaft_to(levels), rtol=1e-12, atol=1e-9)
     assert axial_capacity(g, d, top, toe, rules=rules).shaft == pytest.approx(
         float(own.shaft_to(np.array([toe]))[0]), rel=1e-12, abs=1e-9)

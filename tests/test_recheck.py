@@ -262,7 +262,8 @@ def test_project_recheck_equals_one_by_one():
     piles = []
     for k in range(12):
         mark = f"Q{k}"
-        design = replace(DESIGN, mark=mark, easting=500.0 + 3 * k, cap=("C1" if k < 4 else None))
+        design = replace(DESIGN, mark=mark, easting=500.0 + 3 * k, cap=("C1" if k < 4 else None),
+                         head=("free" if k % 3 == 0 else "fixed"), shear=(0.0 if k == 9 else 30.0))
         record = replace(ASBUILT, easting=500.0 + 3 * k + 0.01 * k, measured_depth=16.0 + 0.05 * k,
                          strata=((S(2.0, 4.0 + 0.5 * k, "ignore"),) if k % 5 == 0 else ()))
         if k == 7:
@@ -379,9 +380,8 @@ def test_analyses_kept_between_calls_follow_every_input(record_change):
     rc = importlib.import_module("design_core.recheck")  # the package exports a function of its name
 
     def clear():
-        rc._shared_section.cache_clear()
-        rc._winkler_solve.cache_clear()
-        axial._shared_profile.cache_clear()
+        rc.clear_shared_analyses()
+        assert not axial._PROFILES and rc._winkler_solve.cache_info().currsize == 0
 
     clear()
     first = recheck(DESIGN, ASBUILT, GROUND, group=CAP)

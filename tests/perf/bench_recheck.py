@@ -19,7 +19,7 @@ from datetime import datetime, timedelta
 
 from design_core import GroundModel, Layer, Rules
 from design_core.inputs import AsBuilt, CapGroup, CapPile, Delivery, PileDesign, StratumMet
-from design_core.recheck import ProjectItem, recheck, recheck_project
+from design_core.recheck import ProjectItem, clear_shared_analyses, recheck, recheck_project
 
 T0 = datetime(2026, 3, 2, 7, 0)
 DIAMETERS = (0.45, 0.6, 0.75, 0.9)
@@ -97,21 +97,34 @@ def _time(fn):
     return time.perf_counter() - w, time.process_time() - c
 
 
+def _cold(fn):
+    """(wall s, CPU s) of one call with nothing kept from earlier calls (design_core keeps
+    shaft profiles, section curves and Winkler solves for equal inputs; forgetting them takes
+    place before the clock starts)."""
+    clear_shared_analyses()
+    return _time(fn)
+
+
 def run() -> dict:
-    """Median time of one pile's recheck, and of the whole 5,000-pile project."""
+    """Median time of one pile's recheck, and of the whole 5,000-pile project.
+
+    ``recheck_ms`` and ``project_5000_s`` start from nothing each time (the figures against the
+    targets); ``recheck_warm_ms`` is the same pile rechecked again with the kept results (a
+    record saved again at the next stage of the same pile)."""
     rules = Rules()
     items, groups = project(5000)
     one = next(it for it in items if it.design.cap is None)   # alone, with shear and moment
     fn = lambda: recheck(one.design, one.asbuilt, one.ground, rules)  # noqa: E731
     fn()
-    walls, cpus = [], []
+    walls, cpus, warm = [], [], []
     for _ in range(300):
-        w, c = _time(fn)
+        w, c = _cold(fn)
         walls.append(w)
         cpus.append(c)
+        warm.append(_time(fn)[0])
     project_walls, project_cpus = [], []
     for _ in range(3):
-        w, c = _time(lambda: recheck_project(items, rules, groups))
+        w, c = _cold(lambda: recheck_project(items, rules, groups))
         project_walls.append(w)
         project_cpus.append(c)
     verdicts = recheck_project(items, rules, groups)
@@ -119,6 +132,7 @@ def run() -> dict:
     return {
         "recheck_ms": statistics.median(walls) * 1e3,
         "recheck_cpu_ms": statistics.median(cpus) * 1e3,
+        "recheck_warm_ms": statistics.median(warm) * 1e3,
         "project_5000_s": statistics.median(project_walls),
         "project_5000_cpu_s": statistics.median(project_cpus),
         "project_per_pile_ms": statistics.median(project_walls) / len(items) * 1e3,
@@ -130,6 +144,7 @@ if __name__ == "__main__":
     f = run()
     print(f"recheck, one pile (median of 300):   {f['recheck_ms']:.3f} ms wall, "
           f"{f['recheck_cpu_ms']:.3f} ms CPU (target < 2 ms; ratio {f['recheck_ms'] / 2.0:.2f})")
+    print(f"the same pile again (kept results):  {f['recheck_warm_ms']:.3f} ms wall")
     print(f"recheck_project, 5,000 piles:        {f['project_5000_s']:.3f} s wall, "
           f"{f['project_5000_cpu_s']:.3f} s CPU (target < 2 s; ratio {f['project_5000_s'] / 2.0:.2f})")
     print(f"per pile in the project:             {f['project_per_pile_ms']:.3f} ms "

@@ -210,6 +210,33 @@ def test_pentadiagonal_solver_matches_a_dense_solve():
     assert np.allclose(a @ x, rhs, atol=1e-10)
 
 
+def test_many_systems_solved_together_give_the_numbers_of_one_at_a_time():
+    # Linear algebra check (not a published example): the batched LDL^T takes the same steps as
+    # the one-system solver, so the results are identical, and it finds a system that is not SPD.
+    from design_core.lateral import (
+        solve_pentadiagonal, solve_pentadiagonal_many, winkler_unit_responses,
+        winkler_unit_responses_many,
+    )
+    rng = np.random.default_rng(11)
+    m, n = 6, 30
+    d = 10.0 + rng.random((m, n))
+    e = -4.0 + 0.1 * rng.random((m, n - 1))
+    f = 1.0 + 0.1 * rng.random((m, n - 2))
+    rhs = rng.random((m, n, 2))
+    x = solve_pentadiagonal_many(d, e, f, rhs)
+    for j in range(m):
+        assert np.array_equal(x[j], solve_pentadiagonal(d[j], e[j], f[j], rhs[j]))
+    d[3, 5] = -1.0
+    with pytest.raises(ValueError, match="not positive definite"):
+        solve_pentadiagonal_many(d, e, f, rhs)
+    cases = [(EI, 12.0, 4000.0, "free", 60), (EI * 2, 20.0, lambda z: 5000.0 * z, "fixed", 100),
+             (EI, 15.0, 3000.0, "fixed", 60), (1e12, 2.0, 1000.0, "free", 400)]  # the last: fewer nodes
+    many = winkler_unit_responses_many(cases)
+    for case, (depth, y) in zip(cases, many):
+        one_depth, one_y = winkler_unit_responses(*case)
+        assert np.array_equal(depth, one_depth) and np.array_equal(y, one_y)
+
+
 def test_long_pile_in_sand_matches_matlock_and_reese():
     # Matlock & Reese (1960), k = n_h z, long free-head pile (z_max = L/T >= 5): y0 = 2.435 H T^3/EI
     # + 1.623 M T^2/EI, M_max = 0.772 H T, T = (EI/n_h)^(1/5). Coefficients from memory (also
