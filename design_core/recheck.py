@@ -607,7 +607,7 @@ def _solve_lateral_together(piles: list[_Pile], cache: _Cache) -> None:
         for key in keys:
             del cache.lateral[key]
         return
-    for key, case, (depth, unit) in zip(keys, cases, solved):
+    for key, case, (depth, unit) in zip(keys, cases, solved, strict=True):
         cache.lateral[key] = _frozen_solve(depth, unit, case[0])
 
 

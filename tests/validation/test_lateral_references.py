@@ -232,7 +232,7 @@ def test_many_systems_solved_together_give_the_numbers_of_one_at_a_time():
     cases = [(EI, 12.0, 4000.0, "free", 60), (EI * 2, 20.0, lambda z: 5000.0 * z, "fixed", 100),
              (EI, 15.0, 3000.0, "fixed", 60), (1e12, 2.0, 1000.0, "free", 400)]  # the last: fewer nodes
     many = winkler_unit_responses_many(cases)
-    for case, (depth, y) in zip(cases, many):
+    for case, (depth, y) in zip(cases, many, strict=True):
         one_depth, one_y = winkler_unit_responses(*case)
         assert np.array_equal(depth, one_depth) and np.array_equal(y, one_y)
 
