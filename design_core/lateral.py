@@ -424,6 +424,9 @@ def solve_pentadiagonal_many(d, e, f, rhs) -> np.ndarray:
     return np.swapaxes(z, 0, 1)
 
 
+SOLVE_TOGETHER_MIN = 16   # measured: 12-16 systems of 101 rows take as long either way (tests/perf)
+
+
 def winkler_unit_responses_many(cases) -> list:
     """``winkler_unit_responses`` of many piles: ``cases`` is a sequence of (ei, length, spring,
     head, nodes); returns [(depth, deflections)] in the same order, the same numbers as one call
@@ -434,6 +437,11 @@ def winkler_unit_responses_many(cases) -> list:
         by_size.setdefault(system[1].size, []).append(j)
     out: list = [None] * len(systems)
     for members in by_size.values():
+        if len(members) < SOLVE_TOGETHER_MIN:   # fewer than this are quicker one at a time
+            for j in members:
+                depth, d, e, f, rhs = systems[j]
+                out[j] = (depth, solve_pentadiagonal(d, e, f, rhs))
+            continue
         y = solve_pentadiagonal_many(
             np.stack([systems[j][1] for j in members]), np.stack([systems[j][2] for j in members]),
             np.stack([systems[j][3] for j in members]), np.stack([systems[j][4] for j in members]))

@@ -80,7 +80,8 @@ from design_core.ground import GroundModel, ground_from_strata
 from design_core.group import across_moment, group_shares
 from design_core.inputs import AsBuilt, CapGroup, PileDesign
 from design_core.lateral import (
-    broms_lateral, winkler_result, winkler_unit_responses, winkler_unit_responses_many,
+    SOLVE_TOGETHER_MIN, broms_lateral, winkler_result, winkler_unit_responses,
+    winkler_unit_responses_many,
 )
 from design_core.rules import Rules
 from design_core.section import InteractionCurve, section_interaction
@@ -600,6 +601,10 @@ def _solve_lateral_together(piles: list[_Pile], cache: _Cache) -> None:
         if key not in cache.lateral:
             cache.lateral[key] = None
             keys.append(key)
+    if len(keys) < SOLVE_TOGETHER_MIN:  # a cap's few mates: one by one, through _winkler_solve
+        for key in keys:
+            del cache.lateral[key]
+        return
     try:
         cases = [_winkler_case(*key) for key in keys]
         solved = winkler_unit_responses_many(cases)

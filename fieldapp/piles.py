@@ -287,7 +287,7 @@ def _pile_and_cap_mates(conn, project_id: int, pile_id: int) -> list:
     """The pile as now stored and, when it stands in a cap, the cap's other piles."""
     row = piles.get_pile_by_id(conn, project_id, pile_id)
     if row.cap_mark:
-        return piles.list_piles(conn, project_id, cap=row.cap_mark)
+        return piles.list_piles(conn, project_id, cap_id=row.cap_id)
     return [row]
 
 

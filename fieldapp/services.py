@@ -768,7 +768,7 @@ def recheck_cap_mates(conn: sqlite3.Connection, project_id: int, pile_row, user)
 
     reason = (f"rechecked because the as-built position of {pile_row.mark} changed the shares "
               f"of cap {pile_row.cap_mark}")
-    mates = [m for m in piles_q.list_piles(conn, project_id, cap=pile_row.cap_mark)
+    mates = [m for m in piles_q.list_piles(conn, project_id, cap_id=pile_row.cap_id)
              if m.id != pile_row.id]
     return recheck_stored(conn, project_id, mates, user, reason)
 

@@ -49,6 +49,36 @@ def test_write_rolls_back_everything_on_error(app):
         assert conn.execute("SELECT COUNT(*) FROM projects WHERE name = 'half'").fetchone()[0] == 0
 
 
+def test_pooled_connections_come_back_clean_and_a_failed_one_is_closed(app):
+    pool = app.extensions["toeline.db_pool"]
+    with app.app_context():
+        first = db.get_db()
+        first.execute("BEGIN IMMEDIATE")
+        first.execute("INSERT INTO projects (name, created_at) VALUES ('left open', 'now')")
+    # the request ended inside a transaction: given back rolled back, and reused as it is
+    with app.app_context():
+        again = db.get_db()
+        assert again is first and not again.in_transaction
+        assert again.execute("PRAGMA foreign_keys").fetchone()[0] == 1
+        assert again.execute("SELECT COUNT(*) FROM projects WHERE name = 'left open'").fetchone()[0] == 0
+    # a request that failed with an exception: its connection is closed, not kept
+    try:
+        with app.app_context():
+            failed = db.get_db()
+            raise RuntimeError("the request failed")
+    except RuntimeError:
+        pass
+    with app.app_context():
+        assert db.get_db() is not failed
+    # at most pool.size idle connections are kept
+    taken = [pool.take() for _ in range(pool.size + 3)]
+    for conn in taken:
+        pool.give(conn)
+    assert len(pool._idle) == pool.size
+    pool.close_all()
+    assert pool._idle == []
+
+
 def test_login_and_logout(client, auth, people):
     assert client.get("/").status_code == 302
     response = auth.login(people["engineer"])

@@ -224,15 +224,19 @@ SORTS = {
 def list_piles(conn: sqlite3.Connection, project_id: int, *, progress: str | None = None,
                verdict: str | None = None, cap: str | None = None, ground_model_id: int | None = None,
                pile_type: str | None = None, search: str | None = None, sort: str = "mark",
-               descending: bool = False) -> list[PileRow]:
+               descending: bool = False, cap_id: int | None = None) -> list[PileRow]:
     """The project's piles, filtered and sorted.
 
     Filters (None or '' means any): ``progress`` one of PROGRESS; ``verdict`` one of VERDICTS or
-    'none' (not yet checked); ``cap`` a cap mark; ``ground_model_id``; ``pile_type``; ``search``
-    a part of the mark. ``sort`` is a key of SORTS (unknown keys sort by mark).
+    'none' (not yet checked); ``cap`` a cap mark; ``cap_id`` a cap's id (read through the
+    ``piles_cap`` index: the quick way to a cap's piles); ``ground_model_id``; ``pile_type``;
+    ``search`` a part of the mark. ``sort`` is a key of SORTS (unknown keys sort by mark).
     """
     sql = _SELECT + "WHERE p.project_id = ?"
     params: list = [project_id]
+    if cap_id is not None:
+        sql += " AND p.cap_id = ?"
+        params.append(cap_id)
     if progress:
         sql += " AND p.progress = ?"
         params.append(progress)

@@ -43,7 +43,9 @@ def site(demo_data):
     return {"app": app, "client": client, "token": token, "data": demo_data, "project": project_id}
 
 
-def _limit_connections(monkeypatch, *pragmas: str) -> None:
+def _limit_connections(monkeypatch, site, *pragmas: str) -> None:
+    """Every connection the app opens from now on runs ``pragmas`` (the fault); the idle ones
+    the app's pool holds are closed, so none made before the fault is used again."""
     original = db.connect
 
     def connect(path):
@@ -57,6 +59,7 @@ def _limit_connections(monkeypatch, *pragmas: str) -> None:
         return conn
 
     monkeypatch.setattr(db, "connect", connect)
+    site["app"].extensions["toeline.db_pool"].close_all()
 
 
 def _fail_file_writes(monkeypatch, code: int) -> None:
@@ -142,7 +145,7 @@ def _clear_json_error(answer, status: int, *words: str) -> None:
 def test_read_only_database_refuses_writes_clearly_and_keeps_reading(site, monkeypatch):
     photos_before = _files(site["data"])
     before = _state(site["data"])
-    _limit_connections(monkeypatch, "query_only = ON")
+    _limit_connections(monkeypatch, site, "query_only = ON")
     _clear_json_error(_put(site, "P1"), 503, "read-only", "nothing was saved")
     _clear_json_error(_photo(site, "P1", 1), 503, "read-only", "nothing was saved")
     page = site["client"].post(f"/projects/{site['project']}/caps/new",
@@ -171,7 +174,7 @@ def test_full_photo_disk_refuses_the_upload_clearly(site, monkeypatch):
 
 
 def test_full_database_disk_refuses_writes_clearly_and_nothing_is_half_written(site, monkeypatch):
-    _limit_connections(monkeypatch, "max_page_count")
+    _limit_connections(monkeypatch, site, "max_page_count")
     refused = None
     for n in range(80):  # fill the free space of the last pages, then the next write must fail
         before = _state(site["data"])

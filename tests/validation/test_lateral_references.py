@@ -231,6 +231,8 @@ def test_many_systems_solved_together_give_the_numbers_of_one_at_a_time():
         solve_pentadiagonal_many(d, e, f, rhs)
     cases = [(EI, 12.0, 4000.0, "free", 60), (EI * 2, 20.0, lambda z: 5000.0 * z, "fixed", 100),
              (EI, 15.0, 3000.0, "fixed", 60), (1e12, 2.0, 1000.0, "free", 400)]  # the last: fewer nodes
+    cases += [(EI * (1 + 0.1 * j), 12.0 + 0.05 * j, 4000.0, ("free", "fixed")[j % 2], 60)
+              for j in range(20)]   # enough of one size to be solved together
     many = winkler_unit_responses_many(cases)
     for case, (depth, y) in zip(cases, many, strict=True):
         one_depth, one_y = winkler_unit_responses(*case)
