@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import os
 import secrets
+from datetime import timedelta
 from pathlib import Path
 
 # One BLAS thread per process, set before numpy loads OpenBLAS. The server answers requests on
@@ -75,9 +76,11 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
         SECRET_KEY=_secret_key(data),
         SESSION_COOKIE_HTTPONLY=True,
         SESSION_COOKIE_SAMESITE="Lax",
+        PERMANENT_SESSION_LIFETIME=timedelta(days=31),  # also enforced on the server (sessions)
         MAX_CONTENT_LENGTH=26 * 1024 * 1024,
         WTF_CSRF_TIME_LIMIT=None,
         LOGIN_MAX_FAILURES=5,
+        LOGIN_MAX_FAILURES_PER_IP=50,
         LOGIN_WINDOW_S=300,
     )
     if os.environ.get("TOELINE_PROXY") == "1":

@@ -37,8 +37,11 @@ def init_app(app) -> None:
 
 
 def _load_user() -> None:
-    user_id = session.get("user_id")
-    g.user = users.by_id(db.get_db(), user_id) if user_id else None
+    token = session.get("sid")
+    g.user = None
+    if isinstance(token, str) and token:
+        max_age = current_app.permanent_session_lifetime.total_seconds()
+        g.user = users.session_user(db.get_db(), token, max_age)
     if g.user is None and _is_api() and request.method not in ("GET", "HEAD", "OPTIONS"):
         _deny(401)  # every API write needs a signed-in user; say so before the CSRF check
 
@@ -121,20 +124,26 @@ def login():
         email = form.email.data.strip().lower()
         max_failures = current_app.config["LOGIN_MAX_FAILURES"]
         window = current_app.config["LOGIN_WINDOW_S"]
+        ip = request.remote_addr or ""
         if users.recent_failures(conn, email, window) >= max_failures:
             flash(f"Too many failed logins for this email: wait {window // 60} minutes and try again.")
+            return render_template("login.html", form=form), 429
+        if users.recent_failures_from(conn, ip, window) >= current_app.config["LOGIN_MAX_FAILURES_PER_IP"]:
+            flash(f"Too many failed logins from this device's network: wait {window // 60} minutes "
+                  "and try again.")
             return render_template("login.html", form=form), 429
         user = users.authenticate(conn, email, form.password.data)
         if user is None:
             with db.write(conn):
-                users.record_login_failure(conn, email)
-                audit.append(conn, None, email, "login failed", email, {"ip": request.remote_addr})
+                users.record_login_failure(conn, email, ip)
+                audit.append(conn, None, email, "login failed", email, {"ip": ip})
             flash("Email or password is wrong.")
             return render_template("login.html", form=form), 401
         with db.write(conn):
             users.clear_failures(conn, email)
+            token = users.start_session(conn, user.id)
         session.clear()  # a new session at every login
-        session["user_id"] = user.id
+        session["sid"] = token
         session.permanent = True
         target = request.args.get("next") or ""
         if not target.startswith("/") or target.startswith("//"):
@@ -146,7 +155,12 @@ def login():
 
 @bp.post("/logout")
 def logout():
-    """Sign out."""
+    """Sign out: the session ends on the server too, so a copy of the cookie is worthless."""
+    token = session.get("sid")
+    if isinstance(token, str) and token:
+        conn = db.get_db()
+        with db.write(conn):
+            users.end_session(conn, token)
     session.clear()
     return redirect(url_for("auth.login"))
 

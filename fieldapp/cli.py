@@ -112,6 +112,29 @@ def user_add(ctx, data_dir, email, role, name, project_ids, password_stdin):
     click.echo(f"user {email} added as {role}")
 
 
+@user.command("end-sessions")
+@data_option
+@click.argument("email")
+@click.pass_context
+def user_end_sessions(ctx, data_dir, email):
+    """Sign a user out everywhere (a lost or stolen tablet): every session of EMAIL ends now.
+
+    Records already saved stay saved. A tablet whose session ended keeps its unsent saves in
+    its outbox; they are sent once someone signs in on it again."""
+    from fieldapp.queries import audit, users
+
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        conn = db.get_db()
+        found = users.by_email(conn, email)
+        if found is None:
+            raise click.ClickException(f"no user with email {email}")
+        with db.write(conn):
+            ended = users.end_sessions(conn, found.id)
+            audit.append(conn, None, "cli", "sessions ended", found.email, {"sessions": ended})
+    click.echo(f"{ended} session{'s' if ended != 1 else ''} of {found.email} ended")
+
+
 @main.command()
 @data_option
 @click.option("--host", default="127.0.0.1", show_default=True)

@@ -1,7 +1,9 @@
-"""Users, passwords, project membership and login failures."""
+"""Users, passwords, project membership, login failures and sessions."""
 
 from __future__ import annotations
 
+import hashlib
+import secrets
 import sqlite3
 import time
 from dataclasses import dataclass
@@ -125,10 +127,16 @@ def all_users(conn: sqlite3.Connection) -> list[User]:
     return [_user(r) for r in conn.execute("SELECT * FROM users ORDER BY email").fetchall()]
 
 
-def record_login_failure(conn: sqlite3.Connection, email: str) -> None:
-    """Note a failed login for rate limiting."""
-    conn.execute("INSERT INTO login_failures (email, at) VALUES (?, ?)",
-                 (email.strip().lower(), time.time()))
+def record_login_failure(conn: sqlite3.Connection, email: str, ip: str = "") -> None:
+    """Note a failed login (by email and by the address it came from) for rate limiting."""
+    conn.execute("INSERT INTO login_failures (email, at, ip) VALUES (?, ?, ?)",
+                 (email.strip().lower(), time.time(), ip or ""))
+
+
+def recent_failures_from(conn: sqlite3.Connection, ip: str, window_s: float) -> int:
+    """Failed logins from this address, for any email, within the last ``window_s`` seconds."""
+    return conn.execute("SELECT COUNT(*) FROM login_failures WHERE ip = ? AND at > ?",
+                        (ip or "", time.time() - window_s)).fetchone()[0]
 
 
 def recent_failures(conn: sqlite3.Connection, email: str, window_s: float) -> int:
@@ -143,3 +151,50 @@ def clear_failures(conn: sqlite3.Connection, email: str) -> None:
 
 
 _DUMMY_HASH = _hasher.hash("not a real password, used to even out timing")
+
+
+# --------------------------------------------------------------------------------------------
+# Sessions: a random token in the signed cookie, its SHA-256 here
+# --------------------------------------------------------------------------------------------
+
+def _token_hash(token: str) -> str:
+    return hashlib.sha256(token.encode("utf-8")).hexdigest()
+
+
+def start_session(conn: sqlite3.Connection, user_id: int) -> str:
+    """Start a session for the user; returns its token (for the cookie; only its hash is kept).
+    Run inside ``db.write``."""
+    token = secrets.token_urlsafe(32)
+    conn.execute("INSERT INTO sessions (user_id, token_hash, started_at) VALUES (?, ?, ?)",
+                 (user_id, _token_hash(token), time.time()))
+    return token
+
+
+def session_user(conn: sqlite3.Connection, token: str, max_age_s: float) -> User | None:
+    """The user of a session that has not ended and started within ``max_age_s`` seconds."""
+    row = conn.execute(
+        "SELECT u.* FROM sessions s JOIN users u ON u.id = s.user_id "
+        "WHERE s.token_hash = ? AND s.ended_at IS NULL AND s.started_at > ?",
+        (_token_hash(token), time.time() - max_age_s)).fetchone()
+    return _user(row)
+
+
+def end_session(conn: sqlite3.Connection, token: str) -> bool:
+    """End one session (signing out); True when it was open. Run inside ``db.write``."""
+    cur = conn.execute("UPDATE sessions SET ended_at = ? WHERE token_hash = ? AND ended_at IS NULL",
+                       (time.time(), _token_hash(token)))
+    return cur.rowcount > 0
+
+
+def end_sessions(conn: sqlite3.Connection, user_id: int) -> int:
+    """End every open session of a user (a lost tablet, a password to change); returns how
+    many. Run inside ``db.write``."""
+    cur = conn.execute("UPDATE sessions SET ended_at = ? WHERE user_id = ? AND ended_at IS NULL",
+                       (time.time(), user_id))
+    return cur.rowcount
+
+
+def open_sessions(conn: sqlite3.Connection, user_id: int) -> int:
+    """How many sessions of the user have not ended (some may have expired)."""
+    return conn.execute("SELECT COUNT(*) FROM sessions WHERE user_id = ? AND ended_at IS NULL",
+                        (user_id,)).fetchone()[0]
