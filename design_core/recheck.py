@@ -40,10 +40,10 @@ Checks
     is also checked at N = -T with the design moment. A pile stands alone unless its cap
     (``group``) has two or more piles. lateral: Broms ultimate / ``broms_factor`` against the
     working shear and the Winkler head deflection under the working shear (and moment, free
-    head) against ``lateral_deflection_limit_mm``; utilisation the larger. Simplified soil: one
+    head) against ``lateral_deflection_limit_mm``; utilisation the larger. Broms takes one
     layer, the first cohesive or cohesionless layer at or below the top of the pile, down to
-    the toe; lengths rounded 50 mm on the safe side (``_lateral_geometry``,
-    ``_lateral_analysis``). group_share: the cap's loads shared over the as-built positions
+    the toe; the Winkler springs follow every layer (``_spring_segments``); lengths rounded
+    50 mm on the safe side (``_lateral_geometry``, ``_lateral_analysis``). group_share: the cap's loads shared over the as-built positions
     (``group_shares``; a moment across a line of piles is left to the tie beams and named in
     the reason); this pile's share against its design compression resistance (or its uplift
     resistance when the share is a pull). A pile not in a cap carries only its own load,
@@ -534,31 +534,64 @@ def _cu_at(layer, level: float) -> float:
     return layer.cu + (bottom - layer.cu) * frac
 
 
+def _spring_segments(pile: _Pile, geometry) -> tuple:
+    """The Winkler springs along the embedded length, layer by layer, as a tuple of
+    (start m, end m, k at start kN/m per m, slope kN/m per m per m), depths below the pile head.
+
+    From the top of the resisting soil (``z_top``) down to the rounded toe, each layer gives
+    springs by its own material: cohesive k = spring_per_cu x c_u(z) (c_u linear within the
+    layer, Davisson 1970); cohesionless k = n_h x (depth below z_top) (Terzaghi 1955); rock and
+    ignored layers none, which can only make the head deflection larger (a softer support never
+    stiffens a linear beam on springs): the engineer judges a rock socket.
+    """
+    rules = pile.rules
+    i, z_top, free, embedded = geometry
+    toe = z_top - embedded
+    segments = []
+    for layer in pile.ground.layers[i:]:
+        top, bottom = min(layer.top, z_top), max(layer.bottom, toe)
+        if top - bottom > LEVEL_TOL_M and layer.material in ("cohesive", "cohesionless"):
+            start, end = round(free + z_top - top, 6), round(free + z_top - bottom, 6)
+            if layer.material == "cohesive":
+                k_top = rules.spring_per_cu * _cu_at(layer, top)
+                k_bottom = rules.spring_per_cu * _cu_at(layer, bottom)
+                segments.append((start, end, k_top, (k_bottom - k_top) / (end - start)))
+            else:
+                nh = rules.spring_nh_sand
+                segments.append((start, end, nh * (start - free), nh))
+        if layer.bottom <= toe + LEVEL_TOL_M:
+            break
+    return tuple(segments)
+
+
 def _winkler_inputs(pile: _Pile, geometry) -> tuple:
     """Everything ``_winkler_solve`` uses, as a dictionary key; see ``_lateral_analysis``."""
     rules = pile.rules
-    i, z_top, free, embedded = geometry
-    layer = pile.ground.layers[i]
-    if layer.material == "cohesive":
-        springs = ("cohesive", rules.spring_per_cu * _cu_at(layer, z_top))
-    else:
-        springs = ("cohesionless", rules.spring_nh_sand)
-    return (springs, free, embedded, pile.diameter, pile.fc_mpa, rules.ei_cracked_factor,
-            pile.design.head)
+    _, _, free, embedded = geometry
+    return (_spring_segments(pile, geometry), free, embedded, pile.diameter, pile.fc_mpa,
+            rules.ei_cracked_factor, pile.design.head)
 
 
-def _winkler_case(springs: tuple[str, float], free: float, embedded: float, diameter: float,
+def _winkler_case(springs: tuple, free: float, embedded: float, diameter: float,
                   fc_mpa: float, ei_factor: float, head: str) -> tuple:
     """(ei, length, spring, head, nodes) for ``winkler_unit_responses`` from the inputs of
-    ``_winkler_inputs``: springs ("cohesive", k kN/m per m below the free length) or
-    ("cohesionless", n_h kN/m3: k = n_h z below it), EI = factor x E_c I_g (kNm2)."""
-    kind, value = springs
-    if kind == "cohesive":
-        def spring(z):
-            return np.where(z >= free - 1e-9, value, 0.0)
-    else:
-        def spring(z):
-            return value * np.maximum(z - free, 0.0)
+    ``_winkler_inputs``: ``springs`` the segments of ``_spring_segments`` (none outside them; at
+    a boundary the segment below), EI = factor x E_c I_g (kNm2)."""
+    starts = np.array([seg[0] for seg in springs], dtype=float)
+    ends = np.array([seg[1] for seg in springs], dtype=float)
+    k_start = np.array([seg[2] for seg in springs], dtype=float)
+    slope = np.array([seg[3] for seg in springs], dtype=float)
+
+    def spring(z):
+        z = np.asarray(z, dtype=float)
+        j = np.searchsorted(starts, z + 1e-9, side="right") - 1
+        jj = np.clip(j, 0, max(len(starts) - 1, 0))
+        if not len(starts):
+            return np.zeros_like(z)
+        k = k_start[jj] + slope[jj] * (z - starts[jj])
+        inside = (j >= 0) & (z <= ends[jj] + 1e-9)
+        return np.where(inside, np.maximum(k, 0.0), 0.0)
+
     ec = 4700.0 * math.sqrt(fc_mpa) * 1000.0          # kPa
     ei = ei_factor * ec * math.pi * diameter ** 4 / 64.0
     return ei, free + embedded, spring, head, WINKLER_NODES
@@ -619,15 +652,14 @@ def _solve_lateral_together(piles: list[_Pile], cache: _Cache) -> None:
 def _lateral_analysis(pile: _Pile, section: InteractionCurve | None, cache: _Cache | None):
     """Broms result, Winkler unit responses, EI and a text naming the soil.
 
-    Simplification: the soil is the single layer at or below the top of the pile
-    (``_lateral_geometry``), taken as extending to the toe. Clay: c_u at the top of that
-    layer's resisting part (the lower end of a c_u that rises with depth), springs
-    k = spring_per_cu x c_u per metre of pile (Davisson 1970). Sand: gamma buoyant when the
-    water level is above the bottom of the top 5 D of the resisting part, springs k = n_h z
-    below it (Terzaghi 1955). EI = ei_cracked_factor x E_c I_g with E_c = 4700 sqrt(f'_c) MPa
-    (ACI 318-19 19.2.2.1(b)). Broms takes M_y as the nominal pure-bending moment of the
-    as-built section (compression ignored: conservative) and the free length as the load's
-    height above the soil (free head).
+    Broms (a method for one uniform soil) takes the single layer at or below the top of the
+    pile (``_lateral_geometry``) as extending to the toe. Clay: c_u at the top of that layer's
+    resisting part (the lower end of a c_u that rises with depth). Sand: gamma buoyant when the
+    water level is above the bottom of the top 5 D of the resisting part. Broms takes M_y as the
+    nominal pure-bending moment of the as-built section (compression ignored: conservative) and
+    the free length as the load's height above the soil (free head). The Winkler springs follow
+    every layer down to the toe (``_spring_segments``). EI = ei_cracked_factor x E_c I_g with
+    E_c = 4700 sqrt(f'_c) MPa (ACI 318-19 19.2.2.1(b)).
     """
     rules, d, g = pile.rules, pile.design, pile.ground
     geometry = _lateral_geometry(pile)
@@ -646,6 +678,10 @@ def _lateral_analysis(pile: _Pile, section: InteractionCurve | None, cache: _Cac
                               unit_weight=gamma, phi=layer.phi, yield_moment=my)
         soil = f"phi {layer.phi:g} deg, gamma' {gamma:.1f} kN/m3 from layer {i}"
     key = _winkler_inputs(pile, geometry)
+    layers_used = sorted({pile.ground.layer_index_at(z_top - (seg[0] + seg[1]) / 2 + free)
+                          for seg in key[0]})
+    if layers_used != [i]:
+        soil += "; springs from layers " + ", ".join(str(k) for k in layers_used)
     if cache is None:
         depth, unit, ei = _winkler_solve(*key)
     else:

@@ -395,3 +395,71 @@ def test_analyses_kept_between_calls_follow_every_input(record_change):
     assert _verdict_dict(recheck(DESIGN, ASBUILT, GROUND, group=CAP)) == _verdict_dict(first)
     with pytest.raises(ValueError, match="read-only"):
         warm.details["interaction"].m[0] = 0.0
+
+
+# ---- lateral springs follow the layers -------------------------------------------------------
+
+def _lateral_pile(ground, depth=16.1, head="free"):
+    from design_core.recheck import _lateral_geometry
+    pile = _pile(replace(DESIGN, head=head), replace(ASBUILT, measured_depth=depth), ground, Rules())
+    return pile, _lateral_geometry(pile)
+
+
+def test_springs_in_one_uniform_clay_are_67_cu_from_the_top_of_the_clay():
+    # Davisson (1970) k = 67 c_u per metre of pile (rule spring_per_cu); fill above the clay is
+    # free length. One uniform layer gives one segment of constant k.
+    from design_core.recheck import _spring_segments
+    ground = GroundModel((Layer(0.0, -2.0, "ignore", 18.0),
+                          Layer(-2.0, -30.0, "cohesive", 19.0, cu=80.0)), -1.5)
+    pile, geometry = _lateral_pile(ground)
+    _, z_top, free, embedded = geometry
+    assert _spring_segments(pile, geometry) == ((free, round(free + embedded, 6),
+                                                 Rules().spring_per_cu * 80.0, 0.0),)
+
+
+def test_springs_follow_each_layer_down_to_the_toe():
+    # Clay with c_u rising 80 -> 160 kPa from -2 to -12 m, then sand: k = 67 c_u(z) in the clay,
+    # n_h x depth below the top of the clay in the sand (Terzaghi 1955), the sand below the
+    # boundary (at a boundary the layer below, as everywhere in design_core).
+    from design_core.recheck import _spring_segments, _winkler_case
+    pile, geometry = _lateral_pile(GROUND)
+    _, z_top, free, embedded = geometry
+    rules = Rules()
+    clay, sand = _spring_segments(pile, geometry)
+    boundary = round(free + z_top - (-12.0), 6)
+    assert clay[:2] == (free, boundary) and sand[:2] == (boundary, round(free + embedded, 6))
+    _, _, spring, _, _ = _winkler_case(*(_spring_segments(pile, geometry), free, embedded, 0.6,
+                                         35.0, rules.ei_cracked_factor, "fixed"))
+    depth_in_clay = free + 5.0                       # level z_top - 5 m = -7 m
+    cu = 80.0 + (160.0 - 80.0) * (-2.0 - (-7.0)) / 10.0
+    assert float(spring(np.array([depth_in_clay]))[0]) == pytest.approx(rules.spring_per_cu * cu)
+    depth_in_sand = free + (z_top - (-14.0))
+    assert float(spring(np.array([depth_in_sand]))[0]) == pytest.approx(
+        rules.spring_nh_sand * (z_top - (-14.0)))
+    assert float(spring(np.array([boundary]))[0]) == pytest.approx(
+        rules.spring_nh_sand * (boundary - free))
+    assert float(spring(np.array([free - 0.5]))[0]) == 0.0  # free length: no springs
+
+
+def test_soil_below_the_first_layer_can_only_reduce_the_head_deflection():
+    # A beam on linear springs: adding springs (stiffer support) never increases the head
+    # deflection; rock and ignored layers give no springs, so they match leaving the layer out.
+    def head_mm(lower):
+        ground = GroundModel((Layer(0.0, -2.0, "ignore", 18.0),
+                              Layer(-2.0, -6.0, "cohesive", 19.0, cu=40.0), lower), -1.5)
+        verdict = recheck(replace(DESIGN, head="free", shear=40.0, moment=0.0),
+                          replace(ASBUILT, measured_depth=16.1), ground)
+        return verdict.details["head_deflection_mm"]
+
+    none = head_mm(Layer(-6.0, -30.0, "ignore", 18.0))
+    rock = head_mm(Layer(-6.0, -30.0, "rock", 23.0, shaft_friction=200.0, base_pressure=5000.0))
+    sand = head_mm(Layer(-6.0, -30.0, "cohesionless", 20.0, phi=34.0))
+    stiff = head_mm(Layer(-6.0, -30.0, "cohesive", 19.0, cu=150.0))
+    assert rock == pytest.approx(none, rel=1e-12)
+    assert sand < none and stiff < none
+
+
+def test_the_lateral_reason_names_the_layers_the_springs_came_from():
+    verdict = recheck(DESIGN, ASBUILT, GROUND)
+    lateral = next(c for c in verdict.checks if c.code == "lateral")
+    assert "springs from layers 1, 2" in lateral.reason
