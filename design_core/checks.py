@@ -25,6 +25,7 @@ CHECK_CODES = (
     "base_debris",
     "concrete_volume",
     "concrete_time",
+    "cage_length",
 )
 
 MEETS_DESIGN = "meets design"

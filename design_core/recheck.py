@@ -1,7 +1,7 @@
 """The recheck of one pile on its as-built record (PRODUCT.md section 5), and of a whole project.
 
 ``recheck(design, asbuilt, ground, rules=None, group=None, curve=None) -> PileVerdict`` returns
-the 15 checks of ``design_core.checks.CHECK_CODES`` in that order. What it rests on:
+the checks of ``design_core.checks.CHECK_CODES`` (16) in that order. What it rests on:
 
 Inputs that were not recorded
     A check needs its as-built input; when that was not recorded the check is "not checked"
@@ -50,8 +50,9 @@ Checks
     checked under axial_compression, so this check is ok with utilisation 0 and says so; a
     pile whose design names a cap that was not passed is not checked. durability_cover
     (against ``rules.min_cover_mm``, cast against soil unless ``permanent_casing``),
-    durability_grade and the tolerances: see the ``_check_*`` functions; limits from
-    ``rules``.
+    durability_grade, the tolerances and cage_length (the as-built cage, measured down from the
+    cut-off, against the design length less ``cage_tolerance_m``; none for a driven pile or an
+    unreinforced design): see the ``_check_*`` functions; limits from ``rules``.
 
 ``details`` carries what the drawings need: "curve" (CapacityCurve), "interaction"
 (InteractionCurve, nominal), "load_point" (N kN, M kNm, factored), "structural_phi", "shares"
@@ -217,10 +218,6 @@ def _pile(design: PileDesign, asbuilt: AsBuilt, ground: GroundModel, rules: Rule
                 for b in borrowed:
                     notes.append(f"Stratum {b.from_depth:g}-{b.to_depth:g} m ({b.material}): "
                                  f"{b.reason}")
-    if (asbuilt.cage_length is not None and design.cage_length
-            and asbuilt.cage_length < design.cage_length - 1e-9):
-        notes.append(f"Cage {asbuilt.cage_length:.2f} m long against {design.cage_length:.2f} m "
-                     "designed: the structural check applies over the cage only")
     return pile
 
 
@@ -912,6 +909,29 @@ def _check_diameter(pile: _Pile) -> Check:
                  f"As-built diameter {got:.0f} mm {verb} the design {design:.0f} mm{allow}")
 
 
+def _check_cage(pile: _Pile) -> Check:
+    code, rules, d = "cage_length", pile.rules, pile.design
+    if d.pile_type == "driven":
+        return Check(code, None, None, "m", 0.0, True,
+                     "A driven pile has no cage placed on site; nothing to check")
+    if not d.cage_length or not d.n_bars:
+        return Check(code, None, None, "m", 0.0, True,
+                     "No cage in the design (unreinforced); nothing to check")
+    got = pile.asbuilt.cage_length
+    if got is None:
+        return Check.not_checked(code, "m", "Cage length not recorded (cage_length)")
+    least = d.cage_length - rules.cage_tolerance_m
+    ok = got >= least - 1e-9
+    allow = f" less {rules.cage_tolerance_m:g} m" if rules.cage_tolerance_m else ""
+    if ok:
+        text = f"Cage {got:.2f} m long, not shorter than the design {d.cage_length:.2f} m{allow}"
+    else:
+        text = (f"Cage {got:.2f} m long, {d.cage_length - got:.2f} m shorter than the design "
+                f"{d.cage_length:.2f} m{allow}: the pile is unreinforced below "
+                f"{_m(pile.cutoff - got)}, where the design put bars")
+    return Check(code, got, least, "m", _util(least, got), ok, text)
+
+
 def _check_debris(pile: _Pile) -> Check:
     code, rules = "base_debris", pile.rules
     debris = pile.asbuilt.debris_mm
@@ -1033,6 +1053,7 @@ def _run(pile: _Pile, group: CapGroup | None, curve, cache: _Cache | None) -> Pi
         _check_debris(pile),
         _check_volume(pile),
         _check_time(pile),
+        _check_cage(pile),
     )
     return PileVerdict(design.mark, checks, tuple(pile.notes), details)
 
@@ -1040,7 +1061,7 @@ def _run(pile: _Pile, group: CapGroup | None, curve, cache: _Cache | None) -> Pi
 def recheck(design: PileDesign, asbuilt: AsBuilt | None, ground: GroundModel,
             rules: Rules | None = None, group: CapGroup | None = None,
             curve: CapacityCurve | None = None) -> PileVerdict:
-    """All 15 checks of one pile on its as-built record; see the module docstring.
+    """Every check of one pile (CHECK_CODES) on its as-built record; see the module docstring.
 
     design: the pile as designed; asbuilt: the record (None: nothing recorded yet); ground: the
     ground model; rules: the project's rules (defaults when None); group: the pile's cap with

@@ -260,6 +260,10 @@ class Rules:
     diameter_tolerance_mm: float = _rule(
         0.0, "As-built diameter allowed below the design diameter", "mm",
         "Common practice: the shaft must not be smaller than designed.", 0.0, 100.0)
+    cage_tolerance_m: float = _rule(
+        0.0, "Cage allowed shorter than designed", "m",
+        "Common practice: the cage must reach its design length below the cut-off; set from the "
+        "project specification.", 0.0, 5.0)
     base_debris_mm: float = _rule(
         38.0, "Base debris, most allowed", "mm",
         "FHWA GEC 10 (Brown, Turner & Castelli 2010) model specification: nowhere more than "

@@ -27,7 +27,7 @@ from PIL import Image, ImageDraw, ImageFont
 
 NAMESPACE = uuid.UUID("7f1c2a52-3d4e-4b8a-9c61-5e0f2b7d9a10")  # fixed, so ids repeat run to run
 START = datetime(2026, 3, 2, 7, 30)
-SHORTS = ("toe", "debris", "cover", "position", "volume", "time")
+SHORTS = ("toe", "debris", "cover", "position", "volume", "time", "cage")
 
 
 def _client_id(*parts) -> str:
@@ -72,7 +72,7 @@ def record_for(pile, platform: float, rules, start: datetime, fault: str | None 
     record.update({
         "base_check": "visual" if pile.pile_type == "cfa" else "sounding",
         "debris_mm": 65.0 if fault == "debris" else (0.0 if pile.pile_type == "cfa" else 15.0),
-        "cage_length": pile.cage_length_m, "cover_mm": cover_min - 10.0 if fault == "cover" else cover_min + 5.0,
+        "cage_length": round(pile.cage_length_m - (0.8 if fault == "cage" else 0.0), 2), "cover_mm": cover_min - 10.0 if fault == "cover" else cover_min + 5.0,
         "exposure_class": pile.exposure_class, "concrete_mpa": pile.fc_mpa,
         "deliveries": deliveries, "pour_start": deliveries[0]["discharged_at"],
         "pour_end": _at(batch + timedelta(minutes=25 * (trucks - 1) + 60 + (70 if fault == "time" else 0))),
@@ -169,7 +169,7 @@ def add_records(app, project_id: int | None = None) -> dict:
     if harsh:
         faults[harsh[0].mark] = "cover"
     pool = [p for p in bored if p.mark not in faults]
-    wanted = [f for f in ("toe", "debris", "cover", "volume", "time") if f not in faults.values()]
+    wanted = [f for f in SHORTS if f != "position" and f not in faults.values()]
     for fault, pile in zip(wanted, pool[1::2], strict=False):
         faults[pile.mark] = fault
     partial = {chosen[-1].mark: "boring", chosen[-2].mark: "concreted"}
@@ -193,7 +193,7 @@ def add_records(app, project_id: int | None = None) -> dict:
         counts[verdict] = counts.get(verdict, 0) + 1
         kinds = ["base", "finished"] if pile.pile_type == "bored" else ["pour", "finished"]
         if fault:
-            kinds = ["base" if fault in ("debris", "toe") else "cage" if fault == "cover" else "pour", "finished"]
+            kinds = ["base" if fault in ("debris", "toe") else "cage" if fault in ("cover", "cage") else "pour", "finished"]
         for k, kind in enumerate(kinds[: 1 if record["progress"] == "boring" else 2]):
             taken = start + timedelta(minutes=120 + 60 * k)
             photos.add_photo(conn, project_id, pile, inspector, _client_id(pile.mark, "photo", kind),

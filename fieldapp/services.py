@@ -594,6 +594,7 @@ def limits_dict(rules: Rules) -> dict[str, Any]:
     """The rules' limits the live checks compare against, with the cover table per class."""
     return {
         "base_debris_mm": rules.base_debris_mm,
+        "cage_tolerance_m": rules.cage_tolerance_m,
         "position_tolerance_mm": rules.position_tolerance_mm,
         "inclination_tolerance": rules.inclination_tolerance,
         "cutoff_tolerance_mm": rules.cutoff_tolerance_mm,
@@ -825,8 +826,10 @@ def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, r
                 continue  # its own save succeeded before; the engineer sees it as it was
         checks = [c.to_dict() for c in verdict.short_first()]
         before = {c["code"]: c["ok"] for c in current.checks}
-        after = {c["code"]: c["ok"] for c in checks}
-        if before == after and verdict.verdict == current.verdict:
+        # A check added to Toeline after this version was stored counts as ok before it: one
+        # that is ok now changes nothing; one that is short or cannot be made now does.
+        if (all(before.get(c["code"], True) == c["ok"] for c in checks)
+                and verdict.verdict == current.verdict):
             continue
         version = current.version + 1
         records.insert(conn, project_id=project_id, pile_id=mate.id, version=version,

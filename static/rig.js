@@ -279,6 +279,17 @@
     result("diameter", v >= least - 1e-6, fixed(v, 0) + " mm against at least " + fixed(least, 0) + " mm");
   }
 
+  function liveCage() {
+    if (notNumber("cage", "cage_length")) return;
+    const v = num("cage_length"), d = data.design || {};
+    if (d.pile_type === "driven" || !d.cage_length || !d.n_bars || !isNum(v)) return say("cage", "", "");
+    const least = d.cage_length - data.limits.cage_tolerance_m;
+    if (v >= least - 1e-9) return result("cage", true, fixed(v, 2) + " m against at least " + fixed(least, 2) + " m");
+    const top = isNum(num("cutoff_level")) ? num("cutoff_level") : d.cutoff_level;
+    result("cage", false, fixed(least - v, 2) + " m short of " + fixed(least, 2) + " m: no bars below " +
+           level(top - v));
+  }
+
   function liveVolume() {
     if (notNumber("volume", "concrete_volume_m3")) return;
     const vol = num("concrete_volume_m3"), platform = num("platform_level"), depth = num("measured_depth");
@@ -320,7 +331,7 @@
 
   function live() {
     liveToe(); liveDiameter(); liveDebris(); livePosition(); liveCutoff(); liveInclination();
-    liveCover(); liveGrade(); liveVolume(); liveDeliveries();
+    liveCover(); liveGrade(); liveVolume(); liveDeliveries(); liveCage();
   }
 
   // --- Repeating rows: strata met and concrete deliveries ---------------------------------------

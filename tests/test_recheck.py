@@ -31,6 +31,7 @@ DESIGN = PileDesign("P7", 0.6, -1.0, -16.0, easting=500.0, northing=300.0, compr
 ASBUILT = AsBuilt(platform_level=0.0, measured_depth=16.1, diameter_mm=600.0, cutoff_level=-1.01,
                   casting_level=-0.6, easting=500.02, northing=299.99, inclination=0.005,
                   debris_mm=10.0, cover_mm=80.0, concrete_mpa=35.0, concrete_volume_m3=5.2,
+                  cage_length=12.0,
                   deliveries=(Delivery("DK1", 3.0, T0, T0 + timedelta(minutes=40)),
                               Delivery("DK2", 2.2, T0, T0 + timedelta(minutes=65))))
 
@@ -76,6 +77,8 @@ FAIL_ALONE = [
     ("concrete_time", {}, {"deliveries": (Delivery("DK3", 3.0, T0, T0 + timedelta(minutes=120)),)},
      {}),
     ("axial_compression", {}, {}, {"fs_global": 4.0, "fs_shaft": 2.5, "fs_base": 4.0}),
+    ("cage_length", {}, {"cage_length": 11.5}, {}),
+    ("cage_length", {}, {"cage_length": 11.5}, {"cage_tolerance_m": 0.4}),
 ]
 
 
@@ -147,6 +150,7 @@ NOT_RECORDED = [
     (("concrete_volume_m3",), {"concrete_volume"}, "concrete_volume_m3"),
     (("casting_level", "cutoff_level"), {"cutoff_level", "concrete_volume"}, "casting_level"),
     (("deliveries",), {"concrete_time"}, "deliveries"),
+    (("cage_length",), {"cage_length"}, "cage_length"),
 ]
 
 
@@ -463,3 +467,24 @@ def test_the_lateral_reason_names_the_layers_the_springs_came_from():
     verdict = recheck(DESIGN, ASBUILT, GROUND)
     lateral = next(c for c in verdict.checks if c.code == "lateral")
     assert "springs from layers 1, 2" in lateral.reason
+
+
+def test_cage_within_its_tolerance_is_ok_and_says_where_a_short_one_leaves_no_bars():
+    # Common practice: the cage reaches its design length below the cut-off (rule
+    # cage_tolerance_m, 0 m by default). 12.0 m designed from cut-off -1.01 m (as built).
+    short = recheck(DESIGN, replace(ASBUILT, cage_length=11.5), GROUND).check("cage_length")
+    assert short.ok is False and short.value == 11.5 and short.limit == 12.0
+    assert short.utilisation == pytest.approx(12.0 / 11.5)
+    assert "0.50 m shorter" in short.reason and "unreinforced below -12.51 m" in short.reason
+    allowed = recheck(DESIGN, replace(ASBUILT, cage_length=11.5), GROUND,
+                      Rules(cage_tolerance_m=0.5)).check("cage_length")
+    assert allowed.ok is True and allowed.limit == pytest.approx(11.5)
+    longer = recheck(DESIGN, replace(ASBUILT, cage_length=12.4), GROUND).check("cage_length")
+    assert longer.ok is True and longer.utilisation < 1.0
+
+
+def test_no_cage_to_check_in_a_driven_pile_or_an_unreinforced_design():
+    record = replace(ASBUILT, cage_length=None)
+    for design in (replace(DESIGN, pile_type="driven"), replace(DESIGN, n_bars=0, cage_length=0.0)):
+        c = recheck(design, record, GROUND).check("cage_length")
+        assert c.ok is True and c.utilisation == 0.0 and "nothing to check" in c.reason

@@ -392,7 +392,7 @@ def test_demo_records_go_through_the_save_path_with_one_of_each_shortfall(app):
         shorts = {code for v in current.values() for c in v.checks if c["ok"] is False
                   for code in [c["code"]]}
         assert {"axial_compression", "toe_level", "base_debris", "durability_cover", "position",
-                "concrete_volume", "concrete_time"} <= shorts
+                "concrete_volume", "concrete_time", "cage_length"} <= shorts
         meets = [v for v in current.values() if v.verdict == "meets design"]
         assert len(meets) > len(current) / 2
         saved = conn.execute("SELECT COUNT(*) FROM audit_log WHERE project_id = ? AND action = 'record saved'",
@@ -498,3 +498,34 @@ def test_the_saved_version_returned_equals_the_one_read_back(app, client, auth, 
         assert records.stored_position(conn, pile.id) == (1, (500.02, 200.0))
         first = records.get_version(conn, pile.id, 1)
         assert r.get_json() == first.answer()
+
+
+def test_a_check_added_since_a_record_was_stored_moves_it_only_when_not_ok(app, client, auth, site):
+    # Records stored before a check existed (their checks lack its code) are rechecked when
+    # something upstream changes: the new check being ok is no change; short or not checked is.
+    auth.login(site["inspector"])
+    for mark in ("B1", "A2"):
+        record = full_record(site, mark)
+        if mark == "A2":
+            record.pop("cage_length")       # cage_length cannot be checked on this one
+        assert put(client, auth, site["own"], mark, record).status_code == 200
+    with app.app_context():
+        conn = db.get_db()
+        rows = {m: piles.get_pile(conn, site["own"], m) for m in ("B1", "A2")}
+        with db.write(conn):
+            for row in rows.values():      # the versions as an older Toeline stored them
+                old = records.current(conn, row.id)
+                checks = [c for c in old.checks if c["code"] != "cage_length"]
+                records.insert(conn, project_id=site["own"], pile_id=row.id, version=2,
+                               client_id=f"older-{row.mark}", record=old.record, progress=old.progress,
+                               verdict="meets design", worst_utilisation=old.worst_utilisation,
+                               checks=checks, borrowed=[], notes=[], rules_version=1, created_by=None)
+                records.set_pile_state(conn, row.id, progress=old.progress, verdict="meets design",
+                                       worst_utilisation=old.worst_utilisation, version=2)
+            rows = {m: piles.get_pile(conn, site["own"], m) for m in ("B1", "A2")}
+            changed = services.recheck_stored(conn, site["own"], list(rows.values()), None, "test")
+        assert changed == ["A2"]
+        assert records.stored_version(conn, rows["B1"].id) == 2
+        newest = records.current(conn, rows["A2"].id)
+        assert newest.version == 3 and newest.verdict == "needs engineer"
+        assert next(c for c in newest.checks if c["code"] == "cage_length")["ok"] is None

@@ -104,6 +104,10 @@ def test_inspector_records_a_short_pile_and_adds_a_photo(page, rig_site, artifac
     page.fill("#f-measured_depth", f"{depth:.2f}")
     page.fill("#f-debris_mm", "60")
     expect(page.locator("#live-debris")).to_contain_text("SHORT: 60 mm against at most 38 mm")
+    page.fill("#f-cage_length", "1.0")          # the cage line (rule cage_tolerance_m, 0 m)
+    expect(page.locator("#live-cage")).to_contain_text(re.compile(r"SHORT: \d+\.\d\d m short of"))
+    page.fill("#f-cage_length", "30")
+    expect(page.locator("#live-cage")).to_contain_text(re.compile(r"OK: 30\.00 m against at least"))
 
     page.select_option("#f-progress", "boring")
     page.click("#save")
