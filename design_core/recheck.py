@@ -168,6 +168,7 @@ class _Pile:
     ground_error: str | None = None
     _gkey: Any = None
     section_memo: Any = None
+    lateral_memo: Any = None
 
     @property
     def gkey(self):
@@ -533,7 +534,8 @@ def _cu_at(layer, level: float) -> float:
 
 def _spring_segments(pile: _Pile, geometry) -> tuple:
     """The Winkler springs along the embedded length, layer by layer, as a tuple of
-    (start m, end m, k at start kN/m per m, slope kN/m per m per m), depths below the pile head.
+    (start m, end m, k at start kN/m per m, slope kN/m per m per m, layer index), depths below
+    the pile head.
 
     From the top of the resisting soil (``z_top``) down to the rounded toe, each layer gives
     springs by its own material: cohesive k = spring_per_cu x c_u(z) (c_u linear within the
@@ -545,20 +547,29 @@ def _spring_segments(pile: _Pile, geometry) -> tuple:
     i, z_top, free, embedded = geometry
     toe = z_top - embedded
     segments = []
-    for layer in pile.ground.layers[i:]:
+    for index, layer in enumerate(pile.ground.layers[i:], start=i):
         top, bottom = min(layer.top, z_top), max(layer.bottom, toe)
         if top - bottom > LEVEL_TOL_M and layer.material in ("cohesive", "cohesionless"):
             start, end = round(free + z_top - top, 6), round(free + z_top - bottom, 6)
             if layer.material == "cohesive":
                 k_top = rules.spring_per_cu * _cu_at(layer, top)
                 k_bottom = rules.spring_per_cu * _cu_at(layer, bottom)
-                segments.append((start, end, k_top, (k_bottom - k_top) / (end - start)))
+                segments.append((start, end, k_top, (k_bottom - k_top) / (end - start), index))
             else:
                 nh = rules.spring_nh_sand
-                segments.append((start, end, nh * (start - free), nh))
+                segments.append((start, end, nh * (start - free), nh, index))
         if layer.bottom <= toe + LEVEL_TOL_M:
             break
     return tuple(segments)
+
+
+def _lateral_key(pile: _Pile) -> tuple:
+    """(geometry, Winkler key) of the pile's lateral check, worked out once per pile; raises
+    _NotChecked as ``_lateral_geometry`` does."""
+    if pile.lateral_memo is None:
+        geometry = _lateral_geometry(pile)
+        pile.lateral_memo = (geometry, _winkler_inputs(pile, geometry))
+    return pile.lateral_memo
 
 
 def _winkler_inputs(pile: _Pile, geometry) -> tuple:
@@ -625,7 +636,7 @@ def _solve_lateral_together(piles: list[_Pile], cache: _Cache) -> None:
         if _toe_problem(pile):
             continue
         try:
-            key = _winkler_inputs(pile, _lateral_geometry(pile))
+            key = _lateral_key(pile)[1]
         except (_NotChecked, ValueError, IndexError):
             continue
         if key not in cache.lateral:
@@ -659,7 +670,7 @@ def _lateral_analysis(pile: _Pile, section: InteractionCurve | None, cache: _Cac
     E_c = 4700 sqrt(f'_c) MPa (ACI 318-19 19.2.2.1(b)).
     """
     rules, d, g = pile.rules, pile.design, pile.ground
-    geometry = _lateral_geometry(pile)
+    geometry, key = _lateral_key(pile)
     i, z_top, free, embedded = geometry
     layer = g.layers[i]
     my = section.pure_bending if section is not None else None
@@ -674,9 +685,7 @@ def _lateral_analysis(pile: _Pile, section: InteractionCurve | None, cache: _Cac
         broms = broms_lateral("cohesionless", pile.diameter, embedded, d.head, free,
                               unit_weight=gamma, phi=layer.phi, yield_moment=my)
         soil = f"phi {layer.phi:g} deg, gamma' {gamma:.1f} kN/m3 from layer {i}"
-    key = _winkler_inputs(pile, geometry)
-    layers_used = sorted({pile.ground.layer_index_at(z_top - (seg[0] + seg[1]) / 2 + free)
-                          for seg in key[0]})
+    layers_used = sorted({seg[4] for seg in key[0]})
     if layers_used != [i]:
         soil += "; springs from layers " + ", ".join(str(k) for k in layers_used)
     if cache is None:

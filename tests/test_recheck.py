@@ -418,7 +418,7 @@ def test_springs_in_one_uniform_clay_are_67_cu_from_the_top_of_the_clay():
     pile, geometry = _lateral_pile(ground)
     _, z_top, free, embedded = geometry
     assert _spring_segments(pile, geometry) == ((free, round(free + embedded, 6),
-                                                 Rules().spring_per_cu * 80.0, 0.0),)
+                                                 Rules().spring_per_cu * 80.0, 0.0, 1),)
 
 
 def test_springs_follow_each_layer_down_to_the_toe():
@@ -432,6 +432,7 @@ def test_springs_follow_each_layer_down_to_the_toe():
     clay, sand = _spring_segments(pile, geometry)
     boundary = round(free + z_top - (-12.0), 6)
     assert clay[:2] == (free, boundary) and sand[:2] == (boundary, round(free + embedded, 6))
+    assert (clay[4], sand[4]) == (1, 2)   # the layers they came from
     _, _, spring, _, _ = _winkler_case(*(_spring_segments(pile, geometry), free, embedded, 0.6,
                                          35.0, rules.ei_cracked_factor, "fixed"))
     depth_in_clay = free + 5.0                       # level z_top - 5 m = -7 m

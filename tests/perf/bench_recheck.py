@@ -79,6 +79,7 @@ def project(n_piles: int = 5000, seed: int = 4):
                 cutoff_level=-1.0 + rng.randint(-3, 3) / 100.0, casting_level=-0.5,
                 easting=e, northing=n, inclination=rng.randint(0, 12) / 1000.0,
                 debris_mm=float(rng.randint(0, 30)), cover_mm=75.0 + 5 * rng.randint(0, 3),
+                cage_length=10.0,
                 concrete_mpa=32.0, concrete_volume_m3=round(1.15 * 3.1416 * d * d / 4 * (depth - 0.5), 2),
                 deliveries=(Delivery("D1", 6.0, T0, T0 + timedelta(minutes=rng.randint(30, 85))),),
                 strata=strata)
