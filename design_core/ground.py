@@ -161,6 +161,14 @@ class GroundModel:
                     f"layers must be top-down and contiguous: layers[{i}].top ({below.top:g} m) "
                     f"differs from layers[{i - 1}].bottom ({above.bottom:g} m)")
 
+    def __hash__(self) -> int:
+        # A ground model keys the analyses kept between calls: hash it once per object.
+        h = self.__dict__.get("_hash")
+        if h is None:
+            h = hash((self.layers, self.water_level))
+            object.__setattr__(self, "_hash", h)
+        return h
+
     @property
     def top(self) -> float:
         """Level of the ground surface, the top of the first layer (m)."""

@@ -293,7 +293,9 @@ def solve_pentadiagonal(d, e, f, rhs):
     """Solve A x = rhs for symmetric positive-definite pentadiagonal A (diagonal d, first and
     second off-diagonals e, f) by LDL^T factorisation without pivoting (stable for SPD).
 
-    rhs is (n,) or (n, k); pure Python loops over the rows: O(n) work, no BLAS threads.
+    rhs is (n,) or (n, k); pure Python loops over the rows: O(n) work, no BLAS threads. The
+    loops carry the previous rows in local names (the same operations in the same order as
+    ``solve_pentadiagonal_many``, so both give identical numbers).
     """
     d = [float(x) for x in d]
     e = [float(x) for x in e]
@@ -306,34 +308,46 @@ def solve_pentadiagonal(d, e, f, rhs):
     dd = [0.0] * n
     a = [0.0] * n          # L[i+1, i]
     b = [0.0] * n          # L[i+2, i]
+    a1 = b1 = b2 = dd1 = dd2 = 0.0   # a, b of the row before (1) and two before (2), and dd
     for i in range(n):
         di = d[i]
         if i >= 1:
-            di -= a[i - 1] * a[i - 1] * dd[i - 1]
+            di -= a1 * a1 * dd1
         if i >= 2:
-            di -= b[i - 2] * b[i - 2] * dd[i - 2]
+            di -= b2 * b2 * dd2
         if not di > 0.0:
             raise ValueError("pentadiagonal system is not positive definite")
         dd[i] = di
+        ai = bi = 0.0
         if i < n - 1:
             ai = e[i]
             if i >= 1:
-                ai -= b[i - 1] * a[i - 1] * dd[i - 1]
-            a[i] = ai / di
+                ai -= b1 * a1 * dd1
+            ai = a[i] = ai / di
         if i < n - 2:
-            b[i] = f[i] / di
+            bi = b[i] = f[i] / di
+        b2, dd2 = b1, dd1
+        a1, b1, dd1 = ai, bi, di
     out = []
     for z in cols:
-        for i in range(1, n):
-            z[i] -= a[i - 1] * z[i - 1]
-            if i >= 2:
-                z[i] -= b[i - 2] * z[i - 2]
+        z1 = z2 = 0.0                 # the forward values of the rows before, not yet divided
         for i in range(n):
-            z[i] /= dd[i]
-        for i in range(n - 2, -1, -1):
-            z[i] -= a[i] * z[i + 1]
+            zi = z[i]
+            if i >= 1:
+                zi -= a[i - 1] * z1
+            if i >= 2:
+                zi -= b[i - 2] * z2
+            z2, z1 = z1, zi
+            z[i] = zi / dd[i]
+        x1 = x2 = 0.0                 # the solution at the rows after
+        for i in range(n - 1, -1, -1):
+            xi = z[i]
+            if i <= n - 2:
+                xi -= a[i] * x1
             if i <= n - 3:
-                z[i] -= b[i] * z[i + 2]
+                xi -= b[i] * x2
+            x2, x1 = x1, xi
+            z[i] = xi
         out.append(z)
     x = np.array(out).T
     return x.reshape(r.shape)

@@ -336,6 +336,15 @@ class Rules:
             out[f.name] = value
         return out
 
+    def __hash__(self) -> int:
+        # Rules key the analyses kept between calls (design_core.axial.shaft_profile): hash the
+        # fields once per object, not on every lookup. Equality stays the dataclass's.
+        h = self.__dict__.get("_hash")
+        if h is None:
+            h = hash(tuple(getattr(self, f.name) for f in fields(self)))
+            object.__setattr__(self, "_hash", h)
+        return h
+
     @classmethod
     def from_dict(cls, data: dict[str, Any]) -> "Rules":
         """Rules from a dict as made by ``to_dict``; missing keys take the default.

@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 import numpy as np
 
@@ -142,6 +142,14 @@ def section_forces(c_mm, diameter: float, cover_mm: float, n_bars: int, bar_mm: 
     return n / 1000.0, m / 1.0e6
 
 
+@lru_cache(maxsize=8)
+def _unit_depths(points: int) -> np.ndarray:
+    """Neutral-axis depths over D, 0.002 to 20, geometric (read-only, made once per count)."""
+    out = np.geomspace(0.002, 20.0, points)
+    out.setflags(write=False)
+    return out
+
+
 def section_interaction(diameter: float, cover_mm: float, n_bars: int, bar_mm: float,
                         fc_mpa: float, fy_mpa: float, es_mpa: float = 200_000.0,
                         points: int = 240) -> InteractionCurve:
@@ -155,7 +163,7 @@ def section_interaction(diameter: float, cover_mm: float, n_bars: int, bar_mm: f
     _validate(diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa)
     d_mm = diameter * 1000.0
     # c from 0.2 % of D to 20 D, geometric, so both ends of the curve are traced closely.
-    c = d_mm * np.geomspace(0.002, 20.0, points)
+    c = d_mm * _unit_depths(points)
     n, m = section_forces(c, diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa)
     a_st = n_bars * math.pi * bar_mm ** 2 / 4.0 if n_bars and bar_mm else 0.0
     a_g = math.pi * d_mm ** 2 / 4.0
