@@ -545,7 +545,9 @@ def shaft_profile(ground: GroundModel, diameter: float, top_level: float, rules:
         return _Profile(ground, diameter, top_level, rules, deepest, max_step, gauss_points)
     with _PROFILES_LOCK:
         prof = _PROFILES.get(key)
-        if prof is not None and prof.piece_bot[-1] <= deepest:
+        # the grid drops stretches shorter than LEVEL_TOL_M * 1e-3, so its last piece may stop
+        # that little above the level asked for: deep enough all the same
+        if prof is not None and prof.piece_bot[-1] <= deepest + LEVEL_TOL_M * 1e-3:
             _PROFILES.move_to_end(key)
             return prof
     prof = _Profile(ground, diameter, top_level, rules, deepest, max_step, gauss_points)

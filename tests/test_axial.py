@@ -604,3 +604,13 @@ def test_a_shared_profile_gives_the_numbers_of_one_built_for_the_toe(data):
         np.testing.assert_allclose(prof.shaft_to(levels), own.shaft_to(levels), rtol=1e-12, atol=1e-9)
     assert axial_capacity(g, d, top, toe, rules=rules).shaft == pytest.approx(
         float(own.shaft_to(np.array([toe]))[0]), rel=1e-12, abs=1e-9)
+
+
+def test_a_shared_profile_serves_a_toe_at_the_bottom_next_to_a_dropped_sliver():
+    # Found by the property above: a water level a hair above the bottom of the ground model
+    # makes a stretch shorter than the level tolerance, which the grid drops, so the grid stops
+    # that hair above the bottom; a toe at the bottom must still be served by the kept profile.
+    from design_core.axial import shaft_profile
+    g = GroundModel([Layer(1.0, 0.0, "cohesive", 16.0, cu=10.0)], 1e-281)
+    first = shaft_profile(g, 1.0, 1.0, Rules(), 0.0)
+    assert shaft_profile(GroundModel(list(g.layers), g.water_level), 1.0, 1.0, Rules(), 0.0) is first
