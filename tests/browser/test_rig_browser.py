@@ -164,6 +164,14 @@ def test_rig_page_fits_a_phone(page, rig_site, artifacts):
     overflow = page.evaluate("() => document.documentElement.scrollWidth - window.innerWidth")
     assert overflow <= 0
     page.screenshot(path=str(artifacts / "rig-phone.png"), full_page=True)
+    # A field scrolled to from above lands clear of the sticky save bar (CSS scroll-padding):
+    # with the field just off the bottom of the screen, the save bar would otherwise cover it.
+    page.evaluate("""() => { const el = document.querySelector('#f-cage_length');
+                            window.scrollTo(0, el.getBoundingClientRect().bottom + window.scrollY
+                                               - window.innerHeight - 40); }""")
+    page.locator("#f-cage_length").scroll_into_view_if_needed()
+    field, bar = page.locator("#f-cage_length").bounding_box(), page.locator(".save-bar").bounding_box()
+    assert field["y"] + field["height"] <= bar["y"] + 1, (field, bar)
 
 
 def test_viewer_sees_the_record_but_cannot_save(page, rig_site):
