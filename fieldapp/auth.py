@@ -165,6 +165,21 @@ def logout():
     return redirect(url_for("auth.login"))
 
 
+@bp.post("/logout/everywhere")
+@login_required
+def logout_everywhere():
+    """Log out on every device (a lost tablet): every session of this user ends, this one too."""
+    conn = db.get_db()
+    with db.write(conn):
+        ended = users.end_sessions(conn, g.user.id)
+        audit.append(conn, None, g.user.label, "sessions ended", g.user.email,
+                     {"sessions": ended, "by": "the user"})
+    session.clear()
+    flash(f"Logged out on every device: {ended} session{'s' if ended != 1 else ''} ended. Saves "
+          "waiting on a tablet stay on it until someone logs in there again.")
+    return redirect(url_for("auth.login"))
+
+
 @bp.get("/")
 @login_required
 def index():

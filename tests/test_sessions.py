@@ -126,3 +126,26 @@ def test_failed_logins_from_one_address_are_limited_across_emails(app, people):
     elsewhere = app.test_client()
     elsewhere.environ_base["REMOTE_ADDR"] = "10.0.0.9"
     assert Auth(elsewhere).login(people["engineer"], PASSWORD).status_code == 302
+
+
+def test_log_out_on_every_device_from_the_projects_page(app, client, auth, people):
+    # The person with a lost tablet logs in elsewhere and ends every session of theirs.
+    lost = app.test_client()
+    Auth(lost).login(people["inspector"])
+    auth.login(people["inspector"])
+    page = client.get("/").get_data(as_text=True)
+    assert "Log out on every device" in page
+    answer = client.post("/logout/everywhere", data={"csrf_token": auth.token()})
+    assert answer.status_code == 302 and answer.headers["Location"].endswith("/login")
+    assert not _signed_in(lost, people["own"]) and not _signed_in(client, people["own"])
+    assert "2 sessions ended" in client.get("/login").get_data(as_text=True)
+    with app.app_context():
+        entry = db.get_db().execute("SELECT actor, subject, payload_json FROM audit_log "
+                                    "WHERE action = 'sessions ended'").fetchone()
+    assert entry[0] == "Inspector" and entry[1] == people["inspector"] and '"sessions":2' in entry[2]
+
+
+def test_log_out_on_every_device_needs_the_csrf_token(app, client, auth, people):
+    auth.login(people["inspector"])
+    assert client.post("/logout/everywhere", data={}).status_code == 400
+    assert _signed_in(client, people["own"])

@@ -45,6 +45,7 @@ EXPECT: dict[str, str | tuple[str, set[int]]] = {
     "healthz": "public",
     "auth.login": "public",
     "auth.logout": ("public", {302}),  # signs out and sends to the login page
+    "auth.logout_everywhere": ("signed", {302}),  # ends the caller's sessions, sends to the login
     "auth.index": "signed",
     "openapi.openapi_json": "public",
     "offline.service_worker": "public",
@@ -297,13 +298,18 @@ def test_every_route_has_an_access_rule(world):
     assert stale == [], f"access rules for routes that no longer exist: {stale}"
 
 
+ENDS_SESSIONS = ("auth.logout", "auth.logout_everywhere")  # called last; the role signs in again
+
+
 def test_authorisation_matrix(world, no_pdf_builds):
     app, data = world["app"], world["data"]
     door = Door(app)
     failures = []
     cells = 0
-    # Reads first, then writes, logout last (it ends the session of the role that calls it).
-    order = sorted(_routes(app), key=lambda rm: (rm[0].endpoint == "auth.logout", rm[1] != "GET"))
+    # Reads first, then writes, the logouts last (they end the session of the role that calls them).
+    # (auth.logout the very last: it also clears the anonymous client's CSRF token)
+    order = sorted(_routes(app), key=lambda rm: (rm[0].endpoint == "auth.logout",
+                                                 rm[0].endpoint in ENDS_SESSIONS, rm[1] != "GET"))
     for rule, method in order:
         if rule.endpoint not in EXPECT:
             continue  # reported by test_every_route_has_an_access_rule
@@ -342,7 +348,7 @@ def test_authorisation_matrix(world, no_pdf_builds):
                         failures.append(f"{where}: expected {expected}, got {response.status_code}")
                     elif before is not None and _fingerprint(data) != before:
                         failures.append(f"{where}: denied, but the database changed")
-                if rule.endpoint == "auth.logout":
+                if rule.endpoint in ENDS_SESSIONS:
                     door.resign(role)
     assert failures == [], f"{len(failures)} of {cells} cells wrong:\n" + "\n".join(failures)
     assert cells > 300
