@@ -135,6 +135,33 @@ def user_end_sessions(ctx, data_dir, email):
     click.echo(f"{ended} session{'s' if ended != 1 else ''} of {found.email} ended")
 
 
+@main.group()
+def photos():
+    """Look after the photo files."""
+
+
+@photos.command("prune")
+@data_option
+@click.option("--older-than-hours", default=24.0, show_default=True, type=click.FloatRange(min=1.0),
+              help="Leave files changed more recently than this (an upload may be under way).")
+@click.option("--dry-run", is_flag=True, help="Only list what would be removed.")
+@click.pass_context
+def photos_prune(ctx, data_dir, older_than_hours, dry_run):
+    """Remove photo files that no stored photo points at (an upload whose database write
+    failed, a write cut off by a crash). Files any photo points at are never touched."""
+    from fieldapp import photos as photos_mod
+
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        report = photos_mod.prune_unreferenced(db.get_db(), app.config["PHOTO_DIR"],
+                                               older_than_hours * 3600.0, dry_run=dry_run)
+    for path in report.removed:
+        click.echo(f"{'would remove' if dry_run else 'removed'} {path}")
+    click.echo(f"{len(report.removed)} file{'s' if len(report.removed) != 1 else ''} "
+               f"({report.bytes / 1_048_576:.1f} MB) {'would be ' if dry_run else ''}removed; "
+               f"{report.left_young} newer than {older_than_hours:g} h left")
+
+
 @main.command()
 @data_option
 @click.option("--host", default="127.0.0.1", show_default=True)

@@ -28,6 +28,7 @@ import math
 import os
 import sqlite3
 import tempfile
+import time
 import warnings
 from dataclasses import dataclass
 from datetime import datetime
@@ -255,6 +256,10 @@ def add_photo(conn: sqlite3.Connection, project_id: int, pile_row, user, client_
         earlier = photos_q.by_client_id(conn, client_id)
         if earlier is not None:
             return earlier, False
+        if not files_present(photo_dir, stored):
+            # ``prune_unreferenced`` removed a file of this hash between ingest and this
+            # transaction (it deletes only under the write lock, so it cannot now): write again.
+            stored = ingest(data, photo_dir)
         photo_id = photos_q.insert(
             conn, project_id=project_id, pile_id=pile_row.id, client_id=client_id, kind=kind,
             caption=caption, sha256=stored.sha256, format=stored.format, taken_at=stored.taken_at,
@@ -266,3 +271,76 @@ def add_photo(conn: sqlite3.Connection, project_id: int, pile_row, user, client_
                      {"photo_id": photo_id, "sha256": stored.sha256, "kind": kind,
                       "client_id": client_id, "taken_at": stored.taken_at})
     return photos_q.get(conn, project_id, photo_id), True
+
+
+# --------------------------------------------------------------------------------------------
+# Files no photo row points at
+# --------------------------------------------------------------------------------------------
+
+def files_present(photo_dir: str | Path, stored: Ingested) -> bool:
+    """True when the original, display copy and thumbnail of ``stored`` are all on disk."""
+    return all(p.exists() for p in (original_path(photo_dir, stored.sha256, stored.format),
+                                    display_path(photo_dir, stored.sha256),
+                                    thumb_path(photo_dir, stored.sha256)))
+
+
+@dataclass(frozen=True)
+class PruneReport:
+    """What ``prune_unreferenced`` removed (or, dry, would remove): files and their bytes, and
+    how many unreferenced files it left because they were younger than the age asked for."""
+
+    removed: tuple[Path, ...]
+    bytes: int
+    left_young: int
+
+
+def _unreferenced(photo_dir: Path, in_use: set[str], cutoff: float) -> tuple[list[Path], int]:
+    old, young = [], 0
+    for path in sorted(photo_dir.rglob("*")):
+        if not path.is_file():
+            continue
+        leftover = path.name.startswith(".tmp-")     # a write cut off by a crash
+        if not leftover and path.stem in in_use:
+            continue
+        if path.stat().st_mtime > cutoff:
+            young += 1
+        else:
+            old.append(path)
+    return old, young
+
+
+def prune_unreferenced(conn: sqlite3.Connection, photo_dir: str | Path, older_than_s: float,
+                       dry_run: bool = False) -> PruneReport:
+    """Remove photo files that no photo row points at, last changed more than ``older_than_s``
+    seconds ago: files of an upload whose database write failed (the disk full, say), and
+    temporary files left by a crash. Nothing a row points at is ever touched.
+
+    Candidates are found first; each is checked again and removed under the write lock, so an
+    upload of the same picture cannot store its row meanwhile (``add_photo`` checks its files
+    under that lock and writes them again if they went). Appends "photo files pruned" to the
+    site-wide audit chain when anything was removed.
+    """
+    from fieldapp import db
+
+    photo_dir = Path(photo_dir)
+    cutoff = time.time() - older_than_s
+    candidates, young = _unreferenced(photo_dir, photos_q.hashes_in_use(conn), cutoff)
+    if dry_run or not candidates:
+        return PruneReport(tuple(candidates), sum(p.stat().st_size for p in candidates), young)
+    removed, size = [], 0
+    with db.write(conn):
+        in_use = photos_q.hashes_in_use(conn)
+        for path in candidates:
+            try:
+                stat = path.stat()
+            except FileNotFoundError:
+                continue
+            if (not path.name.startswith(".tmp-") and path.stem in in_use) or stat.st_mtime > cutoff:
+                continue
+            path.unlink()
+            removed.append(path)
+            size += stat.st_size
+        if removed:
+            audit.append(conn, None, "cli", "photo files pruned", str(photo_dir),
+                         {"files": len(removed), "bytes": size})
+    return PruneReport(tuple(removed), size, young)

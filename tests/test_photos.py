@@ -203,3 +203,78 @@ def test_upload_over_the_request_limit_is_413(client, auth, pile):
     auth.login(pile["inspector"])
     r = upload(client, auth, pile["own"], b"\xff\xd8" + b"\0" * (27 * 1024 * 1024))
     assert r.status_code == 413 and "25 MB" in r.get_json()["error"]
+
+
+# --- files no photo points at -------------------------------------------------------------------
+
+def _age(paths, hours: float) -> None:
+    import os
+    import time
+    when = time.time() - hours * 3600.0
+    for path in paths:
+        os.utime(path, (when, when))
+
+
+def _files_of(photo_dir, sha: str) -> list[Path]:
+    return sorted(p for p in Path(photo_dir).rglob("*") if p.is_file() and p.stem == sha)
+
+
+def test_prune_removes_old_unreferenced_files_and_never_a_stored_photo(app, client, auth, pile):
+    from click.testing import CliRunner
+
+    from fieldapp.cli import main
+
+    auth.login(pile["inspector"])
+    kept = jpeg(size=(300, 200))
+    assert upload(client, auth, pile["own"], kept).status_code == 201
+    photo_dir = app.config["PHOTO_DIR"]
+    orphan, fresh = photos.ingest(jpeg(size=(310, 200)), photo_dir), photos.ingest(jpeg(size=(320, 200)), photo_dir)
+    crash = Path(photo_dir) / "display" / ".tmp-cut-off"      # a write cut off by a crash
+    crash.write_bytes(b"half a file")
+    stored = _files_of(photo_dir, hashlib.sha256(kept).hexdigest())
+    _age(stored + _files_of(photo_dir, orphan.sha256) + [crash], hours=48)
+    assert len(stored) == 3 and len(_files_of(photo_dir, orphan.sha256)) == 3
+
+    run = lambda *a: CliRunner().invoke(main, ["--data", app.config["DATA_DIR"], "photos", "prune", *a])  # noqa: E731
+    dry = run("--dry-run")
+    assert dry.exit_code == 0 and "4 files" in dry.output and "would be removed" in dry.output
+    assert len(_files_of(photo_dir, orphan.sha256)) == 3 and crash.exists()
+    done = run()
+    assert done.exit_code == 0, done.output
+    assert "4 files" in done.output and "3 newer than 24 h left" in done.output
+    assert _files_of(photo_dir, orphan.sha256) == [] and not crash.exists()
+    assert _files_of(photo_dir, hashlib.sha256(kept).hexdigest()) == stored      # a stored photo
+    assert len(_files_of(photo_dir, fresh.sha256)) == 3                           # too new to judge
+    with app.app_context():
+        entry = db.get_db().execute("SELECT payload_json FROM audit_log WHERE action = "
+                                    "'photo files pruned'").fetchone()
+    assert entry is not None and '"files":4' in entry[0]
+    assert run("--older-than-hours", "0.5").exit_code != 0    # at least an hour: uploads under way
+
+
+def test_an_upload_whose_files_were_pruned_meanwhile_writes_them_again(app, client, auth, pile):
+    # prune_unreferenced removes files only under the write lock; add_photo checks its files
+    # under that lock too, so a prune between its ingest and its row cannot leave a row whose
+    # files are gone.
+    auth.login(pile["inspector"])
+    data = jpeg(size=(330, 200))
+    photo_dir = app.config["PHOTO_DIR"]
+    real_ingest = photos.ingest
+    calls = []
+
+    def ingest_then_prune(content, where):
+        out = real_ingest(content, where)
+        calls.append(out.sha256)
+        if len(calls) == 1:       # a prune runs right after this upload's files were written
+            _age(_files_of(where, out.sha256), hours=48)
+            with app.app_context():
+                photos.prune_unreferenced(db.get_db(), where, 3600.0)
+            assert _files_of(where, out.sha256) == []
+        return out
+
+    photos.ingest = ingest_then_prune
+    try:
+        assert upload(client, auth, pile["own"], data).status_code == 201
+    finally:
+        photos.ingest = real_ingest
+    assert len(calls) == 2 and len(_files_of(photo_dir, hashlib.sha256(data).hexdigest())) == 3

@@ -74,6 +74,11 @@ def sha_in_use(conn: sqlite3.Connection, sha256: str) -> bool:
     return conn.execute("SELECT 1 FROM photos WHERE sha256 = ? LIMIT 1", (sha256,)).fetchone() is not None
 
 
+def hashes_in_use(conn: sqlite3.Connection) -> set[str]:
+    """The SHA-256 of every original that a photo row points at."""
+    return {row[0] for row in conn.execute("SELECT DISTINCT sha256 FROM photos").fetchall()}
+
+
 def insert(conn: sqlite3.Connection, *, project_id: int, pile_id: int, client_id: str, kind: str,
            caption: str, sha256: str, format: str, taken_at: str | None, uploaded_by: int | None,
            width: int, height: int, size_bytes: int, display_width: int, display_height: int,
