@@ -46,7 +46,7 @@ import math
 import re
 import sqlite3
 import uuid
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from datetime import datetime
 from typing import Any, Callable
 
@@ -475,32 +475,32 @@ def _pile_design(pile_row) -> PileDesign:
     return piles_q.pile_design(pile_row)
 
 
-def load_inputs(conn: sqlite3.Connection, project_id: int, pile_row,
-                record: dict[str, Any] | None = None, base: RecheckInputs | None = None,
-                with_group: bool = True) -> RecheckInputs:
-    """Design, ground model, current rules and cap group for one pile.
+def cap_group_for(conn: sqlite3.Connection, pile_row,
+                  record: dict[str, Any] | None = None) -> CapGroup | None:
+    """The pile's cap with its loads and the as-built positions of its piles from their newest
+    records, this record's easting/northing (when given) in place of the pile's own; None when
+    the pile is not in a cap."""
+    if pile_row.cap_id is None:
+        return None
+    positions = records.current_positions_in_cap(conn, pile_row.cap_id)
+    positions.pop(pile_row.mark, None)
+    if record and record.get("easting") is not None and record.get("northing") is not None:
+        positions[pile_row.mark] = (record["easting"], record["northing"])
+    return caps_q.cap_group(conn, pile_row.cap_id, positions)
 
-    The cap group carries the as-built positions of the cap's piles from their newest
-    records, with this record's easting/northing (when given) in place of the pile's own.
-    ``base`` (inputs already read for the same pile) supplies design, ground and rules, so
-    only the cap group is read again. ``with_group=False`` leaves the cap group out (None):
-    enough to validate a record, which does not look at the cap.
+
+def load_inputs(conn: sqlite3.Connection, project_id: int, pile_row,
+                record: dict[str, Any] | None = None, with_group: bool = True) -> RecheckInputs:
+    """Design, ground model, current rules and cap group (``cap_group_for``) for one pile.
+
+    ``with_group=False`` leaves the cap group out (None): enough to validate a record, which
+    does not look at the cap.
     """
-    if base is not None:
-        rule_set = projects.RuleSet(project_id, base.rules_version, base.rules, "", "")
-        design, ground = base.design, base.ground
-    else:
-        rule_set = projects.current_rules(conn, project_id)
-        design = _pile_design(pile_row)
-        ground = ground_q.load_ground_model(conn, pile_row.ground_model_id)
-    group = None
-    if with_group and pile_row.cap_id is not None:
-        positions = records.current_positions_in_cap(conn, pile_row.cap_id)
-        positions.pop(pile_row.mark, None)
-        if record and record.get("easting") is not None and record.get("northing") is not None:
-            positions[pile_row.mark] = (record["easting"], record["northing"])
-        group = caps_q.cap_group(conn, pile_row.cap_id, positions)
-    return RecheckInputs(design, ground, rule_set.rules, rule_set.version, group)
+    rule_set = projects.current_rules(conn, project_id)
+    group = cap_group_for(conn, pile_row, record) if with_group else None
+    return RecheckInputs(_pile_design(pile_row),
+                         ground_q.load_ground_model(conn, pile_row.ground_model_id),
+                         rule_set.rules, rule_set.version, group)
 
 
 def _recheck():
@@ -706,7 +706,7 @@ def save_record(conn: sqlite3.Connection, project_id: int, pile_row, user, clien
     clean, errors = validate_record(raw, inputs.rules, inputs.design, inputs.ground)
     if errors:
         raise RecordInvalid(errors)
-    inputs = load_inputs(conn, project_id, pile_row, clean, base=inputs)
+    inputs = replace(inputs, group=cap_group_for(conn, pile_row, clean))
     try:
         verdict = recheck_pile(conn, project_id, pile_row, clean, inputs)
         borrowed = borrowed_list(verdict, inputs, clean)
