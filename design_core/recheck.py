@@ -628,7 +628,7 @@ def _solve_lateral_together(piles: list[_Pile], cache: _Cache) -> None:
     (``winkler_unit_responses_many``) into ``cache.lateral``; the same numbers as one by one.
     Piles whose lateral check stops earlier (no lateral load, no toe, no soil) are skipped, and
     any case the batch cannot take is left for the check itself to solve and report."""
-    keys = []
+    wanted: dict[tuple, None] = {}   # distinct keys, in order
     for pile in piles:
         d = pile.design
         if d.shear <= 0.0 and (d.moment <= 0.0 or d.head != "free"):
@@ -640,18 +640,14 @@ def _solve_lateral_together(piles: list[_Pile], cache: _Cache) -> None:
         except (_NotChecked, ValueError, IndexError):
             continue
         if key not in cache.lateral:
-            cache.lateral[key] = None
-            keys.append(key)
+            wanted[key] = None
+    keys = list(wanted)
     if len(keys) < SOLVE_TOGETHER_MIN:  # a cap's few mates: one by one, through _winkler_solve
-        for key in keys:
-            del cache.lateral[key]
         return
     try:
         cases = [_winkler_case(*key) for key in keys]
         solved = winkler_unit_responses_many(cases)
     except ValueError:
-        for key in keys:
-            del cache.lateral[key]
         return
     for key, case, (depth, unit) in zip(keys, cases, solved, strict=True):
         cache.lateral[key] = _frozen_solve(depth, unit, case[0])

@@ -36,10 +36,16 @@ def init_app(app) -> None:
     app.before_request(_load_user)
 
 
-def _load_user() -> None:
+def _session_token() -> str | None:
+    """The session token the signed cookie carries (``users.start_session``), or None."""
     token = session.get("sid")
+    return token if isinstance(token, str) and token else None
+
+
+def _load_user() -> None:
+    token = _session_token()
     g.user = None
-    if isinstance(token, str) and token:
+    if token:
         max_age = current_app.permanent_session_lifetime.total_seconds()
         g.user = users.session_user(db.get_db(), token, max_age)
     if g.user is None and _is_api() and request.method not in ("GET", "HEAD", "OPTIONS"):
@@ -156,8 +162,8 @@ def login():
 @bp.post("/logout")
 def logout():
     """Sign out: the session ends on the server too, so a copy of the cookie is worthless."""
-    token = session.get("sid")
-    if isinstance(token, str) and token:
+    token = _session_token()
+    if token:
         conn = db.get_db()
         with db.write(conn):
             users.end_session(conn, token)
