@@ -266,14 +266,17 @@ def _build_curve(pile: _Pile, toes: Iterable[float]) -> tuple[CapacityCurve, dic
     return curve, {float(z): i for i, z in enumerate(curve.toe_levels)}
 
 
+def _unrecorded(pile: _Pile, *names: str) -> str:
+    """The record fields among ``names`` that were not recorded, comma-separated."""
+    return ", ".join(n for n in names if getattr(pile.asbuilt, n) is None)
+
+
 def _toe_problem(pile: _Pile) -> str | None:
     """Why the axial checks cannot be made at this toe, or None."""
     if pile.ground_error:
         return pile.ground_error
     if pile.toe is None:
-        missing = [n for n in ("platform_level", "measured_depth")
-                   if getattr(pile.asbuilt, n) is None]
-        return f"As-built toe not recorded ({', '.join(missing)})"
+        return f"As-built toe not recorded ({_unrecorded(pile, 'platform_level', 'measured_depth')})"
     g = pile.ground
     if pile.toe >= min(pile.cutoff, g.top):
         return (f"As-built toe {_m(pile.toe)} is not below the cut-off {_m(pile.cutoff)} and the "
@@ -443,9 +446,8 @@ def _check_structural(pile: _Pile, share: float | None, group: CapGroup | None, 
     # A cap of two or more piles takes the column's eccentricity; anything else stands alone.
     standalone = group is None or len(group.piles) < 2
     if standalone and pile.dev_mm is None:
-        missing = [n for n in ("easting", "northing") if getattr(pile.asbuilt, n) is None]
         return Check.not_checked(
-            code, "kNm", f"As-built position not recorded ({', '.join(missing)}): the moment from "
+            code, "kNm", f"As-built position not recorded ({_unrecorded(pile, 'easting', 'northing')}): the moment from "
             "the plan deviation of a pile standing alone under its load is unknown")
     try:
         section = _section(pile, cache)
@@ -838,8 +840,8 @@ def _check_grade(pile: _Pile) -> Check:
 def _check_position(pile: _Pile) -> Check:
     code, rules = "position", pile.rules
     if pile.dev_mm is None:
-        missing = [n for n in ("easting", "northing") if getattr(pile.asbuilt, n) is None]
-        return Check.not_checked(code, "mm", f"As-built position not recorded ({', '.join(missing)})")
+        return Check.not_checked(code, "mm", "As-built position not recorded "
+                                 f"({_unrecorded(pile, 'easting', 'northing')})")
     limit = rules.position_tolerance_mm
     ok = pile.dev_mm <= limit + 1e-9
     verb = "within" if ok else "more than"
@@ -880,8 +882,8 @@ def _check_cutoff(pile: _Pile) -> Check:
 def _check_toe(pile: _Pile) -> Check:
     code, rules = "toe_level", pile.rules
     if pile.toe is None:
-        missing = [n for n in ("platform_level", "measured_depth") if getattr(pile.asbuilt, n) is None]
-        return Check.not_checked(code, "m", f"As-built toe not recorded ({', '.join(missing)})")
+        return Check.not_checked(code, "m", "As-built toe not recorded "
+                                 f"({_unrecorded(pile, 'platform_level', 'measured_depth')})")
     design = pile.design.toe_level
     above = pile.toe - design
     limit = rules.toe_tolerance_mm / 1000.0
