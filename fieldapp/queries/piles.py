@@ -234,26 +234,16 @@ def list_piles(conn: sqlite3.Connection, project_id: int, *, progress: str | Non
     """
     sql = _SELECT + "WHERE p.project_id = ?"
     params: list = [project_id]
-    if cap_id is not None:
-        sql += " AND p.cap_id = ?"
-        params.append(cap_id)
-    if progress:
-        sql += " AND p.progress = ?"
-        params.append(progress)
     if verdict == "none":
         sql += " AND p.verdict IS NULL"
-    elif verdict:
-        sql += " AND p.verdict = ?"
-        params.append(verdict)
-    if cap:
-        sql += " AND c.mark = ?"
-        params.append(cap)
-    if ground_model_id:
-        sql += " AND p.ground_model_id = ?"
-        params.append(ground_model_id)
-    if pile_type:
-        sql += " AND p.pile_type = ?"
-        params.append(pile_type)
+        verdict = None
+    equal = (("p.cap_id", cap_id), ("p.progress", progress),
+             ("p.verdict", verdict), ("c.mark", cap), ("p.ground_model_id", ground_model_id),
+             ("p.pile_type", pile_type))
+    for column, value in equal:
+        if value:       # None, '' and 0 mean any (ids start at 1)
+            sql += f" AND {column} = ?"
+            params.append(value)
     if search:
         sql += " AND LOWER(p.mark) LIKE ? ESCAPE '\\'"
         escaped = search.lower().replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_")
