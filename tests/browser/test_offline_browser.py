@@ -22,10 +22,10 @@ from PIL import Image
 
 from fieldapp import db
 from fieldapp.queries import ground, piles
+from tests.conftest import PASSWORD
 
 pytestmark = pytest.mark.browser
 
-PASSWORD = "correct horse 42"  # tests/conftest.py PASSWORD
 
 LAYERS = [
     dict(top_level_m=50.0, bottom_level_m=49.0, material="ignore", unit_weight_kn_m3=18.0),

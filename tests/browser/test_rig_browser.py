@@ -18,10 +18,10 @@ from playwright.sync_api import expect
 from design_core.axial import capacity_curve, required_toe_level
 from fieldapp import db
 from fieldapp.queries import ground, piles, projects
+from tests.conftest import PASSWORD
 
 pytestmark = pytest.mark.browser
 
-PASSWORD = "correct horse 42"  # tests/conftest.py PASSWORD
 LAYERS = [
     dict(top_level_m=100.0, bottom_level_m=99.0, material="ignore", unit_weight_kn_m3=18.0),
     dict(top_level_m=99.0, bottom_level_m=80.0, material="cohesive", unit_weight_kn_m3=19.0,

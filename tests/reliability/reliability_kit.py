@@ -132,3 +132,16 @@ def sign_in(client, role: str) -> str:
                                          "csrf_token": _META.search(page).group(1)})
     assert answer.status_code == 302, answer.get_data(as_text=True)[:300]
     return client.get("/api/v1/session").get_json()["csrf_token"]
+
+
+def engineer_site(data: Path) -> dict:
+    """The app on a demo data folder with a test client signed in as the engineer: app, client,
+    token (CSRF), data and project (the demo project's id)."""
+    from fieldapp import db
+
+    app = make_app(data)
+    client = app.test_client()
+    token = sign_in(client, "engineer")
+    with app.app_context():
+        project_id = db.get_db().execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
+    return {"app": app, "client": client, "token": token, "data": data, "project": project_id}

@@ -28,7 +28,7 @@ import uuid
 import pytest
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
-from reliability_kit import make_app, sign_in
+from reliability_kit import engineer_site
 
 from fieldapp import db, services
 from fieldapp.queries import piles as piles_q
@@ -43,16 +43,12 @@ PROFILE = settings(max_examples=60, deadline=None, derandomize=True,
 def site(tmp_path_factory, demo_template):
     data = tmp_path_factory.mktemp("bad-input") / "data"
     shutil.copytree(demo_template, data)
-    app = make_app(data)
-    client = app.test_client()
-    token = sign_in(client, "engineer")
-    with app.app_context():
+    site = engineer_site(data)
+    with site["app"].app_context():
         conn = db.get_db()
-        project_id = conn.execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
-        pile = piles_q.get_pile(conn, project_id, "P2")
+        pile = piles_q.get_pile(conn, site["project"], "P2")
         model = conn.execute("SELECT name FROM ground_models WHERE id = ?", (pile.ground_model_id,)).fetchone()[0]
-    return {"app": app, "client": client, "token": token, "data": data, "project": project_id,
-            "pile": pile, "model": model}
+    return {**site, "pile": pile, "model": model}
 
 
 def _state(site) -> tuple:

@@ -26,7 +26,7 @@ import sqlite3
 import uuid
 
 import pytest
-from reliability_kit import make_app, sign_in, small_jpeg
+from reliability_kit import engineer_site, small_jpeg
 
 from fieldapp import db, photos
 from fieldapp.queries import records
@@ -34,13 +34,7 @@ from fieldapp.queries import records
 
 @pytest.fixture
 def site(demo_data):
-    app = make_app(demo_data)
-    client = app.test_client()
-    token = sign_in(client, "engineer")
-    with app.app_context():
-        conn = db.get_db()
-        project_id = conn.execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
-    return {"app": app, "client": client, "token": token, "data": demo_data, "project": project_id}
+    return engineer_site(demo_data)
 
 
 def _limit_connections(monkeypatch, site, *pragmas: str) -> None:

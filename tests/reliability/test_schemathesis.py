@@ -19,8 +19,8 @@ import zlib
 import pytest
 import schemathesis
 from hypothesis import HealthCheck, settings
+from reliability_kit import engineer_site
 from schemathesis.specs.openapi.checks import positive_data_acceptance
-from reliability_kit import make_app, sign_in
 
 from fieldapp import db, openapi
 from fieldapp.api import CLIENT_ID
@@ -32,16 +32,12 @@ EXAMPLES = 12
 def signed_in(tmp_path_factory, demo_template):
     data = tmp_path_factory.mktemp("schemathesis") / "data"
     shutil.copytree(demo_template, data)
-    app = make_app(data)
-    client = app.test_client()
-    token = sign_in(client, "engineer")
-    with app.app_context():
-        conn = db.get_db()
-        project_id = conn.execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
-        marks = [r[0] for r in conn.execute("SELECT mark FROM piles WHERE project_id = ? ORDER BY id LIMIT 4",
-                                            (project_id,))]
-    return {"app": app, "cookie": client.get_cookie("session").value, "token": token,
-            "project_id": project_id, "marks": marks}
+    site = engineer_site(data)
+    with site["app"].app_context():
+        marks = [r[0] for r in db.get_db().execute(
+            "SELECT mark FROM piles WHERE project_id = ? ORDER BY id LIMIT 4", (site["project"],))]
+    return {"app": site["app"], "cookie": site["client"].get_cookie("session").value,
+            "token": site["token"], "project_id": site["project"], "marks": marks}
 
 
 # Loaded from the same function the app serves (pytest 9 cannot run schemathesis's lazy
