@@ -410,7 +410,7 @@ def _lateral_pile(ground, depth=16.1, head="free"):
 
 
 def test_springs_in_one_uniform_clay_are_67_cu_from_the_top_of_the_clay():
-    # Davisson (1970) k = 67 c_u per metre of pile (rule spring_per_cu); fill above the clay is
+    # Davisson (1970) k = 67 c_u per metre of pile (rule spring_per_cu; from memory); fill above the clay is
     # free length. One uniform layer gives one segment of constant k.
     from design_core.recheck import _spring_segments
     ground = GroundModel((Layer(0.0, -2.0, "ignore", 18.0),
@@ -423,7 +423,7 @@ def test_springs_in_one_uniform_clay_are_67_cu_from_the_top_of_the_clay():
 
 def test_springs_follow_each_layer_down_to_the_toe():
     # Clay with c_u rising 80 -> 160 kPa from -2 to -12 m, then sand: k = 67 c_u(z) in the clay,
-    # n_h x depth below the top of the clay in the sand (Terzaghi 1955), the sand below the
+    # n_h x depth below the top of the clay in the sand (Terzaghi 1955, from memory), the sand below the
     # boundary (at a boundary the layer below, as everywhere in design_core).
     from design_core.recheck import _spring_segments, _winkler_case
     pile, geometry = _lateral_pile(GROUND)
@@ -447,8 +447,8 @@ def test_springs_follow_each_layer_down_to_the_toe():
 
 
 def test_soil_below_the_first_layer_can_only_reduce_the_head_deflection():
-    # A beam on linear springs: adding springs (stiffer support) never increases the head
-    # deflection; rock and ignored layers give no springs, so they match leaving the layer out.
+    # A beam on linear springs (a property of the model, no outside source): adding springs
+    # (stiffer support) never increases the head deflection; rock and ignored layers give no springs, so they match leaving the layer out.
     def head_mm(lower):
         ground = GroundModel((Layer(0.0, -2.0, "ignore", 18.0),
                               Layer(-2.0, -6.0, "cohesive", 19.0, cu=40.0), lower), -1.5)
