@@ -1,5 +1,14 @@
-"""Rigid-cap load sharing against REFERENCES.md section 11 (general biaxial formula with the
-product of inertia; symmetric form as in Bowles, Foundation Analysis and Design, pile caps)."""
+"""Rigid-cap load sharing against the published symmetric formula and rigid-plane statics.
+
+Sources: for a symmetric group P_i = N/n + M_x y_i / sum y^2 + M_y x_i / sum x^2 (Bowles, J. E.
+(1996) Foundation Analysis and Design, 5th ed., McGraw-Hill, chapter on pile caps; from memory,
+the same expression found in course notes); for an as-built group the general form with the
+product of inertia, from the equilibrium of a rigid cap on piles of equal stiffness (statics:
+sum P = N, sum P x = M_y + N x_load, sum P y = M_x + N y_load). Every expected value is a hand
+calculation from these, with the arithmetic in the comment (docs/validation.md section 2).
+Example: 4 piles at (+-1.2, +-1.2) m, N 4000 kN at (0, 0), M_x 400, M_y 200 kNm,
+sum x^2 = sum y^2 = 4 x 1.44 = 5.76 m2.
+"""
 
 import numpy as np
 import pytest
@@ -13,25 +22,33 @@ AS_BUILT = [(1.3, 1.2), (-1.2, 1.2), (-1.2, -1.2), (1.2, -1.2)]
 
 
 def test_symmetric_group_design_positions():
-    # REFERENCES.md section 11: N 4000, Mx 400, My 200 -> 1125.0, 1041.67, 875.0, 958.33 kN
+    # Hand calculation from P = N/n + Mx y/sum y^2 + My x/sum x^2 (Bowles 1996, pile caps):
+    # 1000 +- 400 x 1.2/5.76 (83.33) +- 200 x 1.2/5.76 (41.67) -> 1125.0, 1041.67, 875.0, 958.33 kN
     p = group_shares(DESIGN, 4000.0, mx=400.0, my=200.0)
     assert p == pytest.approx([1125.0, 1041.67, 875.0, 958.33], abs=0.01)
 
 
 def test_one_pile_100_mm_out_of_position():
-    # REFERENCES.md section 11: pile 1 at (1.30, 1.20) -> 1102.42, 1064.25, 898.35, 934.99 kN
+    # Hand calculation from the general rigid-cap formula (statics), pile 1 at (1.30, 1.20): centroid
+    # (0.025, 0); sum x'^2 6.0075, sum y'^2 5.76, sum x'y' 0.12; Mx' 400, My' = 200 - 4000 x 0.025
+    # = 100 kNm; det 6.0075 x 5.76 - 0.12^2 = 34.5888; b = (100 x 5.76 - 400 x 0.12)/34.5888 =
+    # 15.265, c = (400 x 6.0075 - 100 x 0.12)/34.5888 = 69.127; P1 = 1000 + 15.265 x 1.275 +
+    # 69.127 x 1.2 = 1102.42, and so on -> 1102.42, 1064.25, 898.35, 934.99 kN
     p = group_shares(AS_BUILT, 4000.0, mx=400.0, my=200.0)
     assert p == pytest.approx([1102.42, 1064.25, 898.35, 934.99], abs=0.01)
 
 
 def test_product_of_inertia_matters():
-    # REFERENCES.md section 11: ignoring Ixy gives 1104.56, 1062.94, 896.28, 936.23 (wrong by ~0.2 %)
+    # Hand calculation of the shortcut without sum x'y' (statics): 1000 + 100 x 1.275/6.0075 +
+    # 400 x 1.2/5.76 = 1104.56 for pile 1 (1062.94, 896.28, 936.23 for the others): ~0.2 % off
     p = group_shares(AS_BUILT, 4000.0, mx=400.0, my=200.0)
     assert abs(p[0] - 1104.56) > 2.0
 
 
 def test_out_of_position_pile_under_vertical_load_only():
-    # REFERENCES.md section 11: N only -> 979.18, 1020.82, 1019.98, 980.02 kN
+    # Hand calculation, general formula with N only (statics): My' = -4000 x 0.025 = -100 kNm;
+    # b = -100 x 5.76/34.5888 = -16.653, c = 100 x 0.12/34.5888 = 0.3469; P1 = 1000 - 16.653 x
+    # 1.275 + 0.3469 x 1.2 = 979.18 -> 979.18, 1020.82, 1019.98, 980.02 kN
     p = group_shares(AS_BUILT, 4000.0)
     assert p == pytest.approx([979.18, 1020.82, 1019.98, 980.02], abs=0.01)
 
@@ -74,7 +91,7 @@ coords = st.floats(-5.0, 5.0, allow_nan=False)
        n=st.floats(-5000, 20000), mx=st.floats(-3000, 3000), my=st.floats(-3000, 3000),
        lx=st.floats(-1, 1), ly=st.floats(-1, 1))
 def test_equilibrium_holds_for_any_group(pts, n, mx, my, lx, ly):
-    # REFERENCES.md section 11 equilibrium: sum P = N, sum P x = My + N x_load, sum P y = Mx + N y_load
+    # Statics (rigid-cap equilibrium): sum P = N, sum P x = My + N x_load, sum P y = Mx + N y_load
     xy = np.array(pts)
     dx, dy = xy[:, 0] - xy[:, 0].mean(), xy[:, 1] - xy[:, 1].mean()
     ixx, iyy, ixy = dx @ dx, dy @ dy, dx @ dy
