@@ -459,7 +459,8 @@ def test_capacity_curve_agrees_with_axial_capacity_at_every_level(data):
 # ---- integration converges ---------------------------------------------------------------------
 
 def _w2_reference() -> float:
-    """W2 shaft (REFERENCES.md s.2a geometry) by an independent trapezoid rule on 4,000,001 points."""
+    """W2 shaft (docs/validation.md s.1 geometry; API RP 2A-WSD 6.4.2 alpha rule) by an independent
+    trapezoid rule on 4,000,001 points."""
     z = np.linspace(0.0, 15.0, 4_000_001)
     sig = 8.19 * z
     cu = np.where(z < 6.0, 40.0, 80.0)

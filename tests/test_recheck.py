@@ -202,7 +202,8 @@ def test_volume_reason_names_necking_and_overbreak():
     low = recheck(DESIGN, replace(ASBUILT, concrete_volume_m3=4.1), GROUND).check("concrete_volume")
     high = recheck(DESIGN, replace(ASBUILT, concrete_volume_m3=7.0), GROUND).check("concrete_volume")
     assert "necking" in low.reason and "overbreak" in high.reason
-    # REFERENCES.md section 12: V_theo = pi D^2/4 x (casting level - toe) = 0.28274 x 15.5 = 4.3825 m3
+    # Hand calculation from V_theo = pi D^2/4 x (casting level - toe) (ratio as defined by Cruz 2017,
+    # DFI-India): 0.28274 x 15.5 = 4.3825 m3
     assert low.value == pytest.approx(4.1 / 4.3825, rel=1e-4)
 
 
@@ -213,7 +214,7 @@ def test_toe_reason_reads_like_the_engineer():
 
 
 def test_position_deviation_matches_reference_example():
-    # REFERENCES.md section 10: dx 60, dy 55 mm -> 81.39 mm, fails the 75 mm of ICE SPERW B1.4
+    # Hand calculation sqrt(60^2 + 55^2) = 81.39 mm, more than the 75 mm of ICE SPERW 2nd ed. Table B1.4
     c = recheck(DESIGN, replace(ASBUILT, easting=500.060, northing=300.055), GROUND).check("position")
     assert c.value == pytest.approx(81.39, abs=0.01) and c.ok is False
 
@@ -293,7 +294,8 @@ def test_project_recheck_refuses_a_mark_twice():
                         max_size=4),
        n=st.floats(500.0, 6000.0), mx=st.floats(-800.0, 800.0), my=st.floats(-800.0, 800.0))
 def test_group_shares_in_the_recheck_keep_equilibrium(offsets, n, mx, my):
-    # REFERENCES.md section 11: sum P = N and sum P (x - x_load) = My, sum P (y - y_load) = Mx
+    # Statics (rigid cap, docs/engineering.md section 12): sum P = N and sum P (x - x_load) = My,
+    # sum P (y - y_load) = Mx
     piles = tuple(CapPile(m, xy, (xy[0] + dx, xy[1] + dy))
                   for (m, xy), (dx, dy) in zip(CAP_XY.items(), offsets, strict=True))
     group = replace(CAP, piles=piles, n=n, mx=mx, my=my)
@@ -353,7 +355,7 @@ def test_any_record_gives_fifteen_checks_and_never_raises(platform, depth, dia, 
 
 
 def test_cfa_pile_has_no_open_base_so_debris_is_not_asked_for():
-    # PRODUCT.md section 4: a CFA pile has no open base to inspect; its concrete volume takes
+    # docs/checks.md (Base debris): a CFA pile has no open base to inspect; its concrete volume takes
     # that place. A bored pile with no debris figure stays "not checked" (never ok).
     from design_core import AsBuilt, GroundModel, Layer, PileDesign, recheck
 
