@@ -1,4 +1,4 @@
-// Toeline service worker: the app shell for working with no signal (PRODUCT.md section 9).
+// Toeline service worker: the app shell for working with no signal.
 //
 // Served by /sw.js (fieldapp/offline.py), which fills in the version (a hash of every static
 // file, so any change to the shell installs a new worker) and the list of static files.
@@ -9,7 +9,8 @@
 // - fetch:    pages (navigations) network-first, the cached copy when the network fails;
 //             static files cache-first; everything else, including every API call, straight
 //             to the network and never cached here (records and photos wait in the outbox in
-//             IndexedDB, see outbox.js; the project bundle is kept there too).
+//             IndexedDB, see static/outbox/queue.js; the project bundle is kept there too, see
+//             static/outbox/bundle.js).
 
 "use strict";
 
