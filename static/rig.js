@@ -14,7 +14,7 @@
 // load basis of the estimate) from the bundle too.
 //
 // Sections: data, numbers and formatting, the form (fill and gather), live lines, repeating
-// rows (strata, deliveries), saving, the result, photos, start.
+// rows (strata, deliveries), saving, the result, start. Photos: static/rig/photos.js.
 
 (function () {
   "use strict";
@@ -153,7 +153,23 @@
   }
 
   // --- Repeating rows: strata met and concrete deliveries ---------------------------------------
-  function cell(tr, html) { const td = document.createElement("td"); td.append(html); tr.append(td); return td; }
+  // Each field of a row carries its own visible label, so a row reads the same at any width.
+  let rowFields = 0;
+  function cell(tr, control, labelText, cls) {
+    const td = document.createElement("td");
+    td.className = cls || "";
+    if (labelText) {
+      const label = document.createElement("label");
+      label.className = "row-label";
+      label.textContent = labelText;
+      control.id = "row-field-" + (++rowFields);
+      label.htmlFor = control.id;
+      td.append(label);
+    }
+    td.append(control);
+    tr.append(td);
+    return td;
+  }
   function input(key, kind, value, labelText, attrs) {
     const el = document.createElement("input");
     el.dataset.key = key;
@@ -179,44 +195,46 @@
     el.value = value === undefined || value === null ? "" : String(value);
     return el;
   }
-  function removeButton(tr) {
+  function removeButton(tr, what) {
     const b = document.createElement("button");
     b.type = "button"; b.className = "btn small"; b.textContent = "Remove";
+    b.setAttribute("aria-label", "Remove " + what);
     b.addEventListener("click", () => { tr.remove(); live(); });
     return b;
   }
 
   function addStratum(s) {
     s = s || {};
-    const n = byId("strata-rows").children.length;
+    const n = byId("strata-rows").children.length, name = "Stratum " + (n + 1);
     const tr = document.createElement("tr");
     tr.dataset.index = n;
-    cell(tr, input("from_depth", "number", s.from_depth, "Stratum " + (n + 1) + " from depth (m)"));
-    cell(tr, input("to_depth", "number", s.to_depth, "Stratum " + (n + 1) + " to depth (m)"));
-    cell(tr, select("material", options.materials.map((m) => [m, m]), s.material || "cohesive",
-                    "Stratum " + (n + 1) + " material"));
-    cell(tr, input("description", "text", s.description, "Stratum " + (n + 1) + " description", { maxlength: "500" }));
+    cell(tr, input("from_depth", "number", s.from_depth, name + " from depth (m)"), "From (m)", "f-num");
+    cell(tr, input("to_depth", "number", s.to_depth, name + " to depth (m)"), "To (m)", "f-num");
+    cell(tr, select("material", options.materials.map((m) => [m, m]), s.material || "cohesive", name + " material"),
+         "Material", "f-choice");
+    cell(tr, input("description", "text", s.description, name + " description", { maxlength: "500" }),
+         "Description", "f-text");
     const layers = [["", "nearest"]].concat((data.layers || []).map((l) =>
       [String(l.index), l.index + ": " + l.material + " " + fixed(l.top, 1) + " to " + fixed(l.bottom, 1)]));
-    cell(tr, select("layer_index", layers, s.layer_index, "Stratum " + (n + 1) + " ground-model layer", "int"));
-    cell(tr, removeButton(tr));
+    cell(tr, select("layer_index", layers, s.layer_index, name + " ground-model layer", "int"), "Layer", "f-choice");
+    cell(tr, removeButton(tr, name.toLowerCase()), "", "f-remove");
     byId("strata-rows").append(tr);
   }
 
   function addDelivery(d) {
     d = d || {};
-    const n = byId("delivery-rows").children.length;
+    const n = byId("delivery-rows").children.length, name = "Delivery " + (n + 1);
     const tr = document.createElement("tr");
-    cell(tr, input("docket", "text", d.docket, "Delivery " + (n + 1) + " docket", { maxlength: "50" }));
-    cell(tr, input("volume_m3", "number", d.volume_m3, "Delivery " + (n + 1) + " volume (m3)"));
-    cell(tr, input("batched_at", "time", d.batched_at, "Delivery " + (n + 1) + " batched at"));
-    cell(tr, input("discharged_at", "time", d.discharged_at, "Delivery " + (n + 1) + " discharged at"));
-    cell(tr, input("slump_mm", "number", d.slump_mm, "Delivery " + (n + 1) + " slump (mm)"));
+    cell(tr, input("docket", "text", d.docket, name + " docket", { maxlength: "50" }), "Docket", "f-text");
+    cell(tr, input("volume_m3", "number", d.volume_m3, name + " volume (m3)"), "Volume (m³)", "f-num");
+    cell(tr, input("batched_at", "time", d.batched_at, name + " batched at"), "Batched", "f-time");
+    cell(tr, input("discharged_at", "time", d.discharged_at, name + " discharged at"), "Discharged", "f-time");
+    cell(tr, input("slump_mm", "number", d.slump_mm, name + " slump (mm)"), "Slump (mm)", "f-num");
     const out = document.createElement("output");
     out.className = "live";
     out.setAttribute("aria-live", "polite");
-    cell(tr, out);
-    cell(tr, removeButton(tr));
+    cell(tr, out, "From batching", "f-out");
+    cell(tr, removeButton(tr, name.toLowerCase()), "", "f-remove");
     byId("delivery-rows").append(tr);
   }
 
@@ -420,65 +438,6 @@
           ": " + b.reason).join("; ") : "";
   }
 
-  // --- Photos --------------------------------------------------------------------------------
-  function addThumb(src, kind, caption, note) {
-    const li = document.createElement("li");
-    li.className = "photo";
-    const img = document.createElement("img");
-    img.src = src;
-    img.alt = kind + ": " + caption;
-    const span = document.createElement("span");
-    span.className = "photo-cap";
-    const b = document.createElement("b");
-    b.textContent = kind;
-    span.append(b, document.createTextNode(" " + caption + (note ? " (" + note + ")" : "")));
-    li.append(img, span);
-    byId("photo-list").prepend(li);
-    return li;
-  }
-
-  async function uploadPhoto(event) {
-    event.preventDefault();
-    const file = byId("photo-file").files[0];
-    const err = byId("photo-error");
-    err.textContent = "";
-    if (!file) { err.textContent = "Choose a photo first."; return; }
-    const kind = byId("photo-kind").value, caption = byId("photo-caption").value.trim();
-    const button = byId("photo-upload");
-    button.disabled = true;
-    try {
-      let answer;
-      if (window.ToelineOutbox) {
-        answer = await window.ToelineOutbox.savePhoto(data.project_id, data.mark, file, { kind: kind, caption: caption });
-      } else {
-        const fd = new FormData();
-        fd.append("file", file);
-        fd.append("client_id", newId());
-        fd.append("kind", kind);
-        fd.append("caption", caption);
-        const r = await fetch(data.urls.photos, { method: "POST", credentials: "same-origin",
-                                                  headers: { "X-CSRFToken": csrf() }, body: fd });
-        let body = null;
-        try { body = await r.json(); } catch (e) { body = null; }
-        answer = { ok: r.ok, status: r.status, body: body, queued: false };
-      }
-      if (answer.queued) {
-        addThumb(URL.createObjectURL(file), kind, caption, "waiting to be sent");
-      } else if (answer.ok) {
-        addThumb(answer.body.thumb_url, kind, caption, "");
-        byId("photo-file").value = "";
-        byId("photo-caption").value = "";
-      } else {
-        const body = answer.body || {};
-        err.textContent = "Photo not added: " + (body.errors ? Object.values(body.errors).join("; ") : (body.error || answer.status));
-      }
-    } catch (e) {
-      err.textContent = "Photo not added: " + (e && e.message ? e.message : e);
-    } finally {
-      button.disabled = false;
-    }
-  }
-
   // --- Start -----------------------------------------------------------------------------------
   document.addEventListener("input", (event) => { if (event.target.closest("#rig-form, .save-bar, #sec-notes")) live(); });
   document.addEventListener("change", (event) => { if (event.target.closest("#rig-form")) live(); });
@@ -491,8 +450,7 @@
   byId("add-delivery").addEventListener("click", () => { addDelivery(); live(); });
   if (byId("save")) form.addEventListener("submit", save);
   if (byId("amend-save")) byId("amend-save").addEventListener("click", saveAmendment);
-  const photoForm = byId("photo-form");
-  if (photoForm) photoForm.addEventListener("submit", uploadPhoto);
+  if (window.ToelineRigPhotos) window.ToelineRigPhotos.start({ data: () => data, newId: newId, csrf: csrf });
 
   fill();
   if (window.ToelineRigLines) {
@@ -581,6 +539,8 @@
     data.version = d.body.version;
     data.result = d.body;
     byId("version-now").textContent = d.body.version;
+    const sentProgress = d.item.payload && d.item.payload.record ? d.item.payload.record.progress : null;
+    if (d.body.progress || sentProgress) byId("progress-now").textContent = data.progress = d.body.progress || sentProgress;
     status("Sent from this tablet and saved as version " + d.body.version + ".", "ok");
     showResult(d.body);
   });

@@ -61,7 +61,12 @@
     if (!status || document.getElementById("outbox-send")) return;
     status.setAttribute("role", "button");
     status.tabIndex = 0;
-    const toggle = () => { state.panelOpen = !state.panelOpen; renderPanel(); };
+    const toggle = () => {
+      state.panelOpen = !state.panelOpen;
+      renderPanel();
+      const panel = document.getElementById("outbox-panel");
+      if (state.panelOpen && panel && !panel.hidden) panel.scrollIntoView({ block: "nearest" });  // on screen
+    };
     status.addEventListener("click", toggle);
     status.addEventListener("keydown", (e) => { if (e.key === "Enter" || e.key === " ") { e.preventDefault(); toggle(); } });
     const send = document.createElement("button");

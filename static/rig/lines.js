@@ -28,7 +28,7 @@
   const WORD = { ok: "OK: ", short: "SHORT: ", bad: "Check: ", none: "Not checked: " };
   const SOURCE = {
     server: "Server's recheck",
-    pending: "Estimate on this tablet (asking the server)",
+    pending: "Tablet estimate (asking the server)",
     offline: "Offline estimate",
   };
 
