@@ -2,8 +2,8 @@
 
 With no signal the At the rig page estimates its live lines in JavaScript (static/rig/live.js)
 from the project bundle the tablet keeps. Here Python generates 600 cases with a fixed seed
-(ground models, diameters, cut-offs, toes, debris, cover, exposure classes, positions,
-inclinations, volumes, batching times and design values, under three rule sets), design_core's
+(ground models, pile types, diameters, cut-offs, toes, debris, cover, exposure classes,
+positions, inclinations, volumes, batching times and design values, under three rule sets), design_core's
 ``recheck`` works out every check, and one page load in Chromium runs static/rig/live.js (the
 same file the rig page loads) on all of them in one ``page.evaluate``. The test fails on any
 status that differs (the tablet may say "not checked" where it cannot know, never ok where
@@ -28,7 +28,7 @@ from pathlib import Path
 import pytest
 
 from design_core.ground import GroundModel, Layer
-from design_core.inputs import AsBuilt, Delivery, PileDesign, StratumMet
+from design_core.inputs import PILE_TYPES, AsBuilt, Delivery, PileDesign, StratumMet
 from design_core.recheck import recheck
 from design_core.rules import Rules
 from fieldapp import db
@@ -89,7 +89,8 @@ def _design(rng, mark, gm_id, k):
     d = rng.choice(DIAMETERS)
     cutoff = rng.choice(CUTOFFS)
     n_bars = rng.choice((0, 6, 8, 12))
-    return {"mark": mark, "cap_id": None, "ground_model_id": gm_id, "pile_type": "bored",
+    pile_type = rng.choice(PILE_TYPES) if rng.random() < 0.3 else "bored"
+    return {"mark": mark, "cap_id": None, "ground_model_id": gm_id, "pile_type": pile_type,
             "easting_m": 100.0 + k, "northing_m": 200.0 + 2 * k, "cutoff_level_m": cutoff,
             "toe_level_m": round(rng.uniform(-12.0, 3.0), 2), "diameter_mm": d,
             "compression_kn": 0.0 if rng.random() < 0.08 else round(rng.uniform(150, 4500), 0),
