@@ -14,7 +14,7 @@
   show();
 })();
 
-// --- Service worker (offline use; see static/sw.js and static/outbox.js) --------------------
+// --- Service worker (offline use; see static/sw.js and static/outbox/) ----------------------
 // Only in a secure context (https, or localhost): on plain HTTP over the site network the
 // browser has no service worker, and the page says how to get HTTPS (/site-ca).
 (function () {

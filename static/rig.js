@@ -1,18 +1,20 @@
-// Toeline, At the rig: the one-page pile record with live checks (PRODUCT.md section 4).
+// Toeline, At the rig: the one-page pile record (static/rig.js).
 //
-// The page embeds what the server worked out for this pile (services.rig_data) as JSON in
+// The page embeds what the server worked out for this pile (the rig data) as JSON in
 // <script type="application/json" id="rig-data">: design values, the newest record, the
 // capacity curve (design resistance against toe level), the level the design load needs,
-// and the limits of the project's rules. This file only interpolates, compares and formats
-// those numbers; every engineering method lives on the server (design_core), which rechecks
-// the whole pile on every save.
+// and the limits of the project's rules. Every engineering method lives on the server
+// (design_core), which rechecks the whole pile on every save and, as figures are typed, in a
+// dry run whose answer the live lines show (static/rig/lines.js); with no server the lines
+// show the tablet's estimate (static/rig/live.js, tested against design_core).
 //
-// Saves go through window.ToelineOutbox (static/outbox.js: IndexedDB first, then the API)
+// Saves go through window.ToelineOutbox (static/outbox/: IndexedDB first, then the API)
 // when it is there, else straight to the API. Offline, or on the cached page of another pile,
-// the pile's data comes from the outbox's project bundle.
+// the pile's data comes from the outbox's project bundle, and the project's rules (for the
+// load basis of the estimate) from the bundle too.
 //
-// Sections: data, numbers and formatting, the form (fill and gather), live checks, repeating
-// rows (strata, deliveries), saving, the result, photos, start.
+// Sections: data, numbers and formatting, the form (fill and gather), live lines, repeating
+// rows (strata, deliveries), saving, the result, start. Photos: static/rig/photos.js.
 
 (function () {
   "use strict";
@@ -25,39 +27,9 @@
   const form = document.getElementById("rig-form");
   const byId = (id) => document.getElementById(id);
 
-  // --- Numbers and formatting --------------------------------------------------------------
-  // A typed number: "12,5" and "12.5" both read 12.5 (as the server does); blank is null;
-  // anything else is NaN so the live checks can say it is not a number.
-  function parseNum(text) {
-    if (text === null || text === undefined) return null;
-    const t = String(text).trim().replace("\u2212", "-");
-    if (t === "") return null;
-    if (t.indexOf(",") >= 0 && t.indexOf(".") >= 0) return NaN;
-    if (!/^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?$/.test(t)) return NaN;
-    const n = Number(t.replace(",", "."));
-    return Number.isFinite(n) ? n : NaN;
-  }
-  const isNum = (x) => typeof x === "number" && Number.isFinite(x);
-  function fixed(x, dp) { return isNum(x) ? x.toFixed(dp) : "–"; }
-  function grouped(x) {
-    return isNum(x) ? Math.round(x).toLocaleString("en-GB") : "–";
-  }
-  function level(x) { return isNum(x) ? x.toFixed(2) + " m" : "–"; }
-
-  // Linear interpolation of the server's curve at a toe level (null outside it).
-  function curveAt(z) {
-    const c = data.curve;
-    if (!c || !c.toe_levels || !c.toe_levels.length || !isNum(z)) return null;
-    const pts = c.toe_levels.map((t, i) => [t, c.design[i]]).sort((a, b) => a[0] - b[0]);
-    if (z < pts[0][0] - 1e-6 || z > pts[pts.length - 1][0] + 1e-6) return null;
-    for (let i = 1; i < pts.length; i++) {
-      if (z <= pts[i][0]) {
-        const [z0, d0] = pts[i - 1], [z1, d1] = pts[i];
-        return z1 === z0 ? d0 : d0 + (d1 - d0) * (z - z0) / (z1 - z0);
-      }
-    }
-    return pts[pts.length - 1][1];
-  }
+  // --- Numbers and formatting (static/rig/live.js) ----------------------------------------------
+  const L = window.ToelineLive;
+  const { parseNum, isNum, fixed, grouped } = L;
 
   // --- The form: fill from a record, gather into a record ------------------------------------
   function fieldInputs() {
@@ -155,164 +127,10 @@
     }).filter((row) => row !== null);
   }
 
-  function num(path) {
-    const el = form.querySelector('[data-path="' + path + '"]') || document.querySelector('[data-path="' + path + '"]');
-    return el ? parseNum(el.value) : null;
-  }
-  function text(path) {
-    const el = document.querySelector('[data-path="' + path + '"]');
-    return el ? el.value.trim() : "";
-  }
-
-  // --- Live checks ---------------------------------------------------------------------------
-  // Each writes one line: "OK"/"SHORT" in words (not colour alone) and the figures.
-  function say(id, state, message) {
-    const el = byId("live-" + id);
-    if (!el) return;
-    el.className = "live " + (state || "");
-    el.textContent = message || "";
-    el.dataset.state = state || "";
-  }
-  const WORD = { ok: "OK: ", short: "SHORT: ", bad: "Check: " };
-  function result(id, ok, message) { say(id, ok ? "ok" : "short", (ok ? WORD.ok : WORD.short) + message); }
-  function notNumber(id, path) {
-    const n = num(path);
-    if (Number.isNaN(n)) { say(id, "bad", WORD.bad + path + " is not a number"); return true; }
-    return false;
-  }
-
-  function liveToe() {
-    const platform = num("platform_level"), depth = num("measured_depth");
-    const req = data.required_toe_level, load = data.load_kn;
-    byId("required-toe").textContent = isNum(req) ? level(req) + " for " + grouped(load) + " kN" :
-      (data.curve ? "not reached in the ground model" : (data.curve_error || "–"));
-    if (notNumber("toe", "platform_level") || notNumber("toe", "measured_depth")) return;
-    if (!isNum(platform) || !isNum(depth)) {
-      byId("toe-level").textContent = "–";
-      byId("capacity-here").textContent = "–";
-      say("toe", "", isNum(depth) ? "Type the platform level to get the toe." : "");
-      return;
-    }
-    const toe = platform - depth;
-    byId("toe-level").textContent = level(toe);
-    const here = curveAt(toe);
-    byId("capacity-here").textContent = here === null ? "outside the curve" : grouped(here) + " kN";
-    const design = data.design || {};
-    const vsDesign = isNum(design.toe_level)
-      ? (toe > design.toe_level + 0.005 ? "; " + fixed(toe - design.toe_level, 2) + " m above the design toe"
-         : toe < design.toe_level - 0.005 ? "; " + fixed(design.toe_level - toe, 2) + " m below the design toe"
-         : "; at the design toe") : "";
-    if (isNum(req)) {
-      const more = toe - req;
-      if (more > 0.005) result("toe", false, fixed(more, 2) + " m more needed for " + grouped(load) + " kN" + vsDesign);
-      else result("toe", true, "reaches design with " + fixed(-more, 2) + " m to spare" + vsDesign);
-    } else if (data.curve && isNum(load) && load > 0) {
-      result("toe", false, "the ground model cannot carry " + grouped(load) + " kN at any toe" + vsDesign);
-    } else {
-      say("toe", "", "Toe at " + level(toe) + vsDesign);
-    }
-  }
-
-  function liveDebris() {
-    if (notNumber("debris", "debris_mm")) return;
-    const v = num("debris_mm"), lim = data.limits.base_debris_mm;
-    if (!isNum(v)) return say("debris", "", "");
-    result("debris", v <= lim + 1e-9, fixed(v, 0) + " mm against at most " + fixed(lim, 0) + " mm");
-  }
-
-  function exposureNow() { return text("exposure_class") || (data.design || {}).exposure_class; }
-
-  function liveCover() {
-    if (notNumber("cover", "cover_mm")) return;
-    const v = num("cover_mm"), cls = exposureNow();
-    const cased = (data.record && data.record.permanent_casing !== undefined)
-      ? data.record.permanent_casing : (data.design || {}).permanent_casing;
-    const table = cased ? data.limits.min_cover_cased_mm : data.limits.min_cover_mm;
-    const need = table ? table[cls] : undefined;
-    if (!isNum(v)) return say("cover", "", isNum(need) ? "At least " + fixed(need, 0) + " mm for " + cls : "");
-    if (!isNum(need)) return say("cover", "bad", WORD.bad + "exposure class " + cls + " is not in the project's rules");
-    result("cover", v >= need - 1e-9, fixed(v, 0) + " mm against at least " + fixed(need, 0) + " mm for " + cls +
-           (cased ? " (in a permanent casing)" : " (cast against soil)"));
-  }
-
-  function liveGrade() {
-    if (notNumber("grade", "concrete_mpa")) return;
-    const v = num("concrete_mpa"), cls = exposureNow();
-    const need = data.limits.min_strength_mpa ? data.limits.min_strength_mpa[cls] : undefined;
-    if (!isNum(v) || !isNum(need)) return say("grade", "", "");
-    result("grade", v >= need - 1e-9, fixed(v, 0) + " MPa against at least " + fixed(need, 0) + " MPa for " + cls);
-  }
-
-  function livePosition() {
-    if (notNumber("position", "easting") || notNumber("position", "northing")) return;
-    const e = num("easting"), n = num("northing"), d = data.design || {};
-    if (!isNum(e) || !isNum(n)) return say("position", "", "");
-    const dx = (e - d.easting) * 1000, dy = (n - d.northing) * 1000;
-    const dev = Math.hypot(dx, dy), lim = data.limits.position_tolerance_mm;
-    const sign = (x) => (x >= 0 ? "+" : "−") + fixed(Math.abs(x), 0);
-    result("position", dev <= lim + 1e-9, fixed(dev, 0) + " mm off design (east " + sign(dx) + ", north " +
-           sign(dy) + " mm) against " + fixed(lim, 0) + " mm");
-  }
-
-  function liveInclination() {
-    if (notNumber("inclination", "inclination")) return;
-    const v = num("inclination"), lim = data.limits.inclination_tolerance;
-    if (!isNum(v)) return say("inclination", "", "Limit 1 in " + fixed(1 / lim, 0));
-    const oneIn = v > 0 ? "1 in " + fixed(1 / v, 0) : "vertical";
-    result("inclination", v <= lim + 1e-12, oneIn + " against 1 in " + fixed(1 / lim, 0));
-  }
-
-  function liveCutoff() {
-    if (notNumber("cutoff", "cutoff_level")) return;
-    const v = num("cutoff_level"), d = (data.design || {}).cutoff_level, lim = data.limits.cutoff_tolerance_mm;
-    if (!isNum(v) || !isNum(d)) return say("cutoff", "", "");
-    const off = (v - d) * 1000;
-    result("cutoff", Math.abs(off) <= lim + 1e-6, fixed(Math.abs(off), 0) + " mm " + (off >= 0 ? "above" : "below") +
-           " design, within ±" + fixed(lim, 0) + " mm allowed");
-  }
-
-  function liveDiameter() {
-    if (notNumber("diameter", "diameter_mm")) return;
-    const v = num("diameter_mm"), d = (data.design || {}).diameter_mm;
-    const least = d - data.limits.diameter_tolerance_mm;
-    if (!isNum(v) || !isNum(d)) return say("diameter", "", "");
-    result("diameter", v >= least - 1e-6, fixed(v, 0) + " mm against at least " + fixed(least, 0) + " mm");
-  }
-
-  function liveCage() {
-    if (notNumber("cage", "cage_length")) return;
-    const v = num("cage_length"), d = data.design || {};
-    if (d.pile_type === "driven" || !d.cage_length || !d.n_bars || !isNum(v)) return say("cage", "", "");
-    const least = d.cage_length - data.limits.cage_tolerance_m;
-    if (v >= least - 1e-9) return result("cage", true, fixed(v, 2) + " m against at least " + fixed(least, 2) + " m");
-    const top = isNum(num("cutoff_level")) ? num("cutoff_level") : d.cutoff_level;
-    result("cage", false, fixed(least - v, 2) + " m short of " + fixed(least, 2) + " m: no bars below " +
-           level(top - v));
-  }
-
-  function liveVolume() {
-    if (notNumber("volume", "concrete_volume_m3")) return;
-    const vol = num("concrete_volume_m3"), platform = num("platform_level"), depth = num("measured_depth");
-    const top = isNum(num("casting_level")) ? num("casting_level") : num("cutoff_level");
-    const area = (data.design || {}).area_m2;
-    if (!isNum(vol)) return say("volume", "", "");
-    if (!isNum(platform) || !isNum(depth) || !isNum(top) || !isNum(area)) {
-      return say("volume", "", "Type the platform level, depth and final concrete level (or cut-off) for the ratio.");
-    }
-    const length = top - (platform - depth);
-    if (length <= 0) return say("volume", "bad", WORD.bad + "the concrete level is not above the toe");
-    const theo = area * length, ratio = vol / theo;
-    const lo = data.limits.volume_ratio_min, hi = data.limits.volume_ratio_max;
-    result("volume", ratio >= lo - 1e-9 && ratio <= hi + 1e-9, "ratio " + fixed(ratio, 2) + " (" + fixed(vol, 2) +
-           " m³ against " + fixed(theo, 2) + " m³ theoretical), within " + fixed(lo, 2) + " to " + fixed(hi, 2) + " wanted");
-  }
-
-  function minutesBetween(a, b) {
-    if (!a || !b) return null;
-    const ta = new Date(a).getTime(), tb = new Date(b).getTime();
-    if (isNaN(ta) || isNaN(tb)) return null;
-    return (tb - ta) / 60000;
-  }
+  // --- Live lines ------------------------------------------------------------------------------
+  // static/rig/lines.js writes them: the server's dry-run recheck when it answers, else the
+  // tablet's estimate (static/rig/live.js). Here only each delivery row's own minutes.
+  const minutesBetween = L.minutesBetween;
 
   function liveDeliveries() {
     const lim = data.limits.batch_to_discharge_min;
@@ -330,12 +148,28 @@
   }
 
   function live() {
-    liveToe(); liveDiameter(); liveDebris(); livePosition(); liveCutoff(); liveInclination();
-    liveCover(); liveGrade(); liveVolume(); liveDeliveries(); liveCage();
+    liveDeliveries();
+    if (window.ToelineRigLines) window.ToelineRigLines.update();
   }
 
   // --- Repeating rows: strata met and concrete deliveries ---------------------------------------
-  function cell(tr, html) { const td = document.createElement("td"); td.append(html); tr.append(td); return td; }
+  // Each field of a row carries its own visible label, so a row reads the same at any width.
+  let rowFields = 0;
+  function cell(tr, control, labelText, cls) {
+    const td = document.createElement("td");
+    td.className = cls || "";
+    if (labelText) {
+      const label = document.createElement("label");
+      label.className = "row-label";
+      label.textContent = labelText;
+      control.id = "row-field-" + (++rowFields);
+      label.htmlFor = control.id;
+      td.append(label);
+    }
+    td.append(control);
+    tr.append(td);
+    return td;
+  }
   function input(key, kind, value, labelText, attrs) {
     const el = document.createElement("input");
     el.dataset.key = key;
@@ -361,44 +195,46 @@
     el.value = value === undefined || value === null ? "" : String(value);
     return el;
   }
-  function removeButton(tr) {
+  function removeButton(tr, what) {
     const b = document.createElement("button");
     b.type = "button"; b.className = "btn small"; b.textContent = "Remove";
+    b.setAttribute("aria-label", "Remove " + what);
     b.addEventListener("click", () => { tr.remove(); live(); });
     return b;
   }
 
   function addStratum(s) {
     s = s || {};
-    const n = byId("strata-rows").children.length;
+    const n = byId("strata-rows").children.length, name = "Stratum " + (n + 1);
     const tr = document.createElement("tr");
     tr.dataset.index = n;
-    cell(tr, input("from_depth", "number", s.from_depth, "Stratum " + (n + 1) + " from depth (m)"));
-    cell(tr, input("to_depth", "number", s.to_depth, "Stratum " + (n + 1) + " to depth (m)"));
-    cell(tr, select("material", options.materials.map((m) => [m, m]), s.material || "cohesive",
-                    "Stratum " + (n + 1) + " material"));
-    cell(tr, input("description", "text", s.description, "Stratum " + (n + 1) + " description", { maxlength: "500" }));
+    cell(tr, input("from_depth", "number", s.from_depth, name + " from depth (m)"), "From (m)", "f-num");
+    cell(tr, input("to_depth", "number", s.to_depth, name + " to depth (m)"), "To (m)", "f-num");
+    cell(tr, select("material", options.materials.map((m) => [m, m]), s.material || "cohesive", name + " material"),
+         "Material", "f-choice");
+    cell(tr, input("description", "text", s.description, name + " description", { maxlength: "500" }),
+         "Description", "f-text");
     const layers = [["", "nearest"]].concat((data.layers || []).map((l) =>
       [String(l.index), l.index + ": " + l.material + " " + fixed(l.top, 1) + " to " + fixed(l.bottom, 1)]));
-    cell(tr, select("layer_index", layers, s.layer_index, "Stratum " + (n + 1) + " ground-model layer", "int"));
-    cell(tr, removeButton(tr));
+    cell(tr, select("layer_index", layers, s.layer_index, name + " ground-model layer", "int"), "Layer", "f-choice");
+    cell(tr, removeButton(tr, name.toLowerCase()), "", "f-remove");
     byId("strata-rows").append(tr);
   }
 
   function addDelivery(d) {
     d = d || {};
-    const n = byId("delivery-rows").children.length;
+    const n = byId("delivery-rows").children.length, name = "Delivery " + (n + 1);
     const tr = document.createElement("tr");
-    cell(tr, input("docket", "text", d.docket, "Delivery " + (n + 1) + " docket", { maxlength: "50" }));
-    cell(tr, input("volume_m3", "number", d.volume_m3, "Delivery " + (n + 1) + " volume (m3)"));
-    cell(tr, input("batched_at", "time", d.batched_at, "Delivery " + (n + 1) + " batched at"));
-    cell(tr, input("discharged_at", "time", d.discharged_at, "Delivery " + (n + 1) + " discharged at"));
-    cell(tr, input("slump_mm", "number", d.slump_mm, "Delivery " + (n + 1) + " slump (mm)"));
+    cell(tr, input("docket", "text", d.docket, name + " docket", { maxlength: "50" }), "Docket", "f-text");
+    cell(tr, input("volume_m3", "number", d.volume_m3, name + " volume (m3)"), "Volume (m³)", "f-num");
+    cell(tr, input("batched_at", "time", d.batched_at, name + " batched at"), "Batched", "f-time");
+    cell(tr, input("discharged_at", "time", d.discharged_at, name + " discharged at"), "Discharged", "f-time");
+    cell(tr, input("slump_mm", "number", d.slump_mm, name + " slump (mm)"), "Slump (mm)", "f-num");
     const out = document.createElement("output");
     out.className = "live";
     out.setAttribute("aria-live", "polite");
-    cell(tr, out);
-    cell(tr, removeButton(tr));
+    cell(tr, out, "From batching", "f-out");
+    cell(tr, removeButton(tr, name.toLowerCase()), "", "f-remove");
     byId("delivery-rows").append(tr);
   }
 
@@ -602,65 +438,6 @@
           ": " + b.reason).join("; ") : "";
   }
 
-  // --- Photos --------------------------------------------------------------------------------
-  function addThumb(src, kind, caption, note) {
-    const li = document.createElement("li");
-    li.className = "photo";
-    const img = document.createElement("img");
-    img.src = src;
-    img.alt = kind + ": " + caption;
-    const span = document.createElement("span");
-    span.className = "photo-cap";
-    const b = document.createElement("b");
-    b.textContent = kind;
-    span.append(b, document.createTextNode(" " + caption + (note ? " (" + note + ")" : "")));
-    li.append(img, span);
-    byId("photo-list").prepend(li);
-    return li;
-  }
-
-  async function uploadPhoto(event) {
-    event.preventDefault();
-    const file = byId("photo-file").files[0];
-    const err = byId("photo-error");
-    err.textContent = "";
-    if (!file) { err.textContent = "Choose a photo first."; return; }
-    const kind = byId("photo-kind").value, caption = byId("photo-caption").value.trim();
-    const button = byId("photo-upload");
-    button.disabled = true;
-    try {
-      let answer;
-      if (window.ToelineOutbox) {
-        answer = await window.ToelineOutbox.savePhoto(data.project_id, data.mark, file, { kind: kind, caption: caption });
-      } else {
-        const fd = new FormData();
-        fd.append("file", file);
-        fd.append("client_id", newId());
-        fd.append("kind", kind);
-        fd.append("caption", caption);
-        const r = await fetch(data.urls.photos, { method: "POST", credentials: "same-origin",
-                                                  headers: { "X-CSRFToken": csrf() }, body: fd });
-        let body = null;
-        try { body = await r.json(); } catch (e) { body = null; }
-        answer = { ok: r.ok, status: r.status, body: body, queued: false };
-      }
-      if (answer.queued) {
-        addThumb(URL.createObjectURL(file), kind, caption, "waiting to be sent");
-      } else if (answer.ok) {
-        addThumb(answer.body.thumb_url, kind, caption, "");
-        byId("photo-file").value = "";
-        byId("photo-caption").value = "";
-      } else {
-        const body = answer.body || {};
-        err.textContent = "Photo not added: " + (body.errors ? Object.values(body.errors).join("; ") : (body.error || answer.status));
-      }
-    } catch (e) {
-      err.textContent = "Photo not added: " + (e && e.message ? e.message : e);
-    } finally {
-      button.disabled = false;
-    }
-  }
-
   // --- Start -----------------------------------------------------------------------------------
   document.addEventListener("input", (event) => { if (event.target.closest("#rig-form, .save-bar, #sec-notes")) live(); });
   document.addEventListener("change", (event) => { if (event.target.closest("#rig-form")) live(); });
@@ -673,10 +450,38 @@
   byId("add-delivery").addEventListener("click", () => { addDelivery(); live(); });
   if (byId("save")) form.addEventListener("submit", save);
   if (byId("amend-save")) byId("amend-save").addEventListener("click", saveAmendment);
-  const photoForm = byId("photo-form");
-  if (photoForm) photoForm.addEventListener("submit", uploadPhoto);
+  if (window.ToelineRigPhotos) window.ToelineRigPhotos.start({ data: () => data, newId: newId, csrf: csrf });
 
   fill();
+  if (window.ToelineRigLines) {
+    window.ToelineRigLines.start({
+      data: () => data, csrf: csrf,
+      record: () => { const r = gather(); const p = byId("f-progress"); if (p) r.progress = p.value; return r; },
+    });
+  }
+
+  // The project's rules from the bundle kept on this tablet: the offline estimate needs the
+  // load basis (design approach, loads working or factored, load factor) for this rule version.
+  async function rulesFromBundle() {
+    const outbox = window.ToelineOutbox;
+    if (!outbox || !outbox.getBundle) return;
+    try {
+      await outbox.ready;
+      let bundle = await outbox.getBundle(data.project_id);
+      if (!bundle || bundle.rules_version !== data.rules_version) {
+        await new Promise((resolve) => {
+          window.addEventListener("toeline:bundle", resolve, { once: true });
+          setTimeout(resolve, 20000);
+        });
+        bundle = await outbox.getBundle(data.project_id);
+      }
+      if (bundle && bundle.rules && bundle.rules_version === data.rules_version && !data.rules) {
+        data.rules = bundle.rules;
+        live();
+      }
+    } catch (err) { /* the estimate says the load basis is not known */ }
+  }
+  rulesFromBundle();
 
   // The cached page of another pile (offline), or no signal: take the pile from the bundle.
   const urlMark = decodeURIComponent((/\/rig\/([^/]+)\/?$/.exec(location.pathname) || [])[1] || "");
@@ -688,7 +493,7 @@
       const offline = await outbox.pileOffline(data.project_id, urlMark || data.mark);
       if (offline) {
         const shellMark = data.mark;
-        data = Object.assign({}, data, offline, { urls: data.urls, can_record: data.can_record });
+        data = Object.assign({}, data, offline, { urls: data.urls, can_record: data.can_record, rules: data.rules });
         if (urlMark && urlMark !== data.mark) data.mark = urlMark;
         if (data.mark !== shellMark) showOtherPile(shellMark);
         fill();
@@ -697,7 +502,7 @@
   }
 
   // The worker served the cached page of another pile as the shell: retitle it for this pile,
-  // and clear what belonged to the other one (its photos, its verdict). (outbox.js)
+  // and clear what belonged to the other one (its photos, its verdict). (static/outbox/bundle.js)
   function showOtherPile(shellMark) {
     const d = data.design || {};
     document.title = "Pile " + data.mark + " at the rig (offline) · Toeline";
@@ -734,6 +539,8 @@
     data.version = d.body.version;
     data.result = d.body;
     byId("version-now").textContent = d.body.version;
+    const sentProgress = d.item.payload && d.item.payload.record ? d.item.payload.record.progress : null;
+    if (d.body.progress || sentProgress) byId("progress-now").textContent = data.progress = d.body.progress || sentProgress;
     status("Sent from this tablet and saved as version " + d.body.version + ".", "ok");
     showResult(d.body);
   });

@@ -1,4 +1,4 @@
-// Toeline service worker: the app shell for working with no signal (PRODUCT.md section 9).
+// Toeline service worker: the app shell for working with no signal.
 //
 // Served by /sw.js (fieldapp/offline.py), which fills in the version (a hash of every static
 // file, so any change to the shell installs a new worker) and the list of static files.
@@ -6,10 +6,12 @@
 // - install:  pre-cache the static shell (every file must arrive, or the worker is not
 //             installed and the old one keeps serving) and, when signed in, the start page.
 // - activate: delete the caches of older versions; take control of open pages.
-// - fetch:    pages (navigations) network-first, the cached copy when the network fails;
+// - fetch:    pages (navigations) network-first, the cached copy when the network fails (a
+//             page never kept: a page saying so, with links to the pages that are kept);
 //             static files cache-first; everything else, including every API call, straight
 //             to the network and never cached here (records and photos wait in the outbox in
-//             IndexedDB, see outbox.js; the project bundle is kept there too).
+//             IndexedDB, see static/outbox/queue.js; the project bundle is kept there too, see
+//             static/outbox/bundle.js).
 
 "use strict";
 
@@ -82,34 +84,62 @@ async function pageNetworkFirst(request, url) {
   } catch (err) {
     const cached = (await cache.match(url.pathname + url.search, { ignoreVary: true })) ||
                    (await cache.match(url.pathname, { ignoreSearch: true, ignoreVary: true })) ||
-                   (await shellFor(cache, url));
+                   (await rigShellFor(cache, url));
     if (cached) return cached;
-    return offlinePage();
+    return offlinePage(cache, url);
   }
 }
 
-// A page never opened on this tablet: the rig page of another pile of the same project is
-// the same shell (rig.js fills the pile in from the bundle kept in IndexedDB); failing that,
-// the start page.
-async function shellFor(cache, url) {
+// A pile's rig page never opened on this tablet: the rig page of another pile of the same
+// project is the same shell (rig.js fills the pile in from the bundle kept in IndexedDB).
+async function rigShellFor(cache, url) {
   const rig = url.pathname.match(/^(\/projects\/\d+\/rig\/)/);
-  if (rig) {
-    const keys = await cache.keys();
-    for (const key of keys) {
-      const path = new URL(key.url).pathname;
-      if (path.startsWith(rig[1]) && path !== rig[1]) return cache.match(key, { ignoreVary: true });
-    }
+  if (!rig) return null;
+  const keys = await cache.keys();
+  for (const key of keys) {
+    const path = new URL(key.url).pathname;
+    if (path.startsWith(rig[1]) && path !== rig[1]) return cache.match(key, { ignoreVary: true });
   }
-  return cache.match("/", { ignoreVary: true });
+  return null;
 }
 
-function offlinePage() {
-  const body = "<!doctype html><meta charset=utf-8><meta name=viewport content='width=device-width'>" +
-    "<title>Offline · Toeline</title><link rel=stylesheet href='/static/app.css'>" +
-    "<main><h1>No signal, and this page was not saved on the tablet</h1>" +
-    "<p>Open the page once while online and it stays available offline. " +
-    "Records already saved on this tablet are kept and will be sent when the signal returns.</p>" +
-    "<p><a class=btn href='/'>Start page</a></p></main>";
+function escapeHtml(text) {
+  return String(text).replace(/[&<>"']/g, (c) => ({ "&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;" })[c]);
+}
+
+// The pages this tablet keeps (path and title), the rig pages first.
+async function keptPages(cache) {
+  const out = [];
+  for (const key of await cache.keys()) {
+    const u = new URL(key.url);
+    if (u.pathname.startsWith("/static/") || u.pathname === MANIFEST) continue;
+    let title = u.pathname;
+    try {
+      const html = await (await cache.match(key, { ignoreVary: true })).text();
+      const m = /<title>([^<]*)<\/title>/i.exec(html);
+      if (m) title = m[1].replace(/&amp;/g, "&").replace(/&#39;/g, "'").replace(/&quot;/g, '"').replace(/ · Toeline$/, "").trim();
+    } catch (err) { /* keep the path as its name */ }
+    out.push({ href: u.pathname + u.search, title: title, rig: /\/rig(\/|$)/.test(u.pathname) });
+  }
+  return out.sort((a, b) => (b.rig - a.rig) || a.href.localeCompare(b.href)).slice(0, 40);
+}
+
+// A page not kept on this tablet: say so, say what is kept, and link to it (never another page
+// in its place).
+async function offlinePage(cache, url) {
+  const kept = await keptPages(cache);
+  const items = kept.map((p) => "<li><a class=btn href='" + escapeHtml(p.href) + "'>" + escapeHtml(p.title) +
+    "</a></li>").join("");
+  const rigNote = kept.some((p) => /\/rig\/[^/]+$/.test(p.href))
+    ? "<p>Every pile of a project whose At the rig page is kept opens offline from there.</p>" : "";
+  const body = "<!doctype html><html lang=en><meta charset=utf-8><meta name=viewport content='width=device-width, initial-scale=1'>" +
+    "<title>Not available offline · Toeline</title><link rel=stylesheet href='/static/app.css'>" +
+    "<main class=offline-page><h1>Not available offline</h1>" +
+    "<p id=offline-missing>No signal, and <strong>" + escapeHtml(url.pathname) + "</strong> was not opened on this " +
+    "tablet while online, so it was not kept.</p>" +
+    (kept.length ? "<h2>Kept on this tablet, open with no signal</h2><ul id=offline-kept class=kept-pages>" + items + "</ul>" + rigNote
+                 : "<p>No pages are kept on this tablet yet: open a project's At the rig page once while online.</p>") +
+    "<p>Records and photos saved on this tablet are kept and are sent when the signal returns.</p></main></html>";
   return new Response(body, { status: 503, headers: { "Content-Type": "text/html; charset=utf-8" } });
 }
 

@@ -88,8 +88,9 @@ class Tablet:
 
 
 @pytest.fixture
-def tablet(browser_type, chromium, tmp_path, site):
+def tablet(browser_type, chromium, tmp_path, site, artifacts):
     t = Tablet(browser_type, chromium, tmp_path / "profile", site)
+    t.artifacts = artifacts
     yield t
     t.close()
 
@@ -479,3 +480,33 @@ def test_a_changed_shell_installs_a_new_worker_and_drops_the_old_cache(tablet, s
           first[0])
     css = page.evaluate("caches.match('/static/app.css').then((r) => r.text())")
     assert "/* shell v2 */" in css
+
+
+def test_offline_a_page_not_kept_says_so_and_links_to_what_is(tablet, site):
+    """Offline, a screen never opened on this tablet (here Review) is not replaced silently by
+    another page: the worker says it is not available offline and links to the pages kept."""
+    pid = site["pid"]
+    page = tablet.open()
+    login(page, site, site["inspector"])
+    page.goto(tablet.url(f"/projects/{pid}/piles"))
+    wait_controlled(page)
+    wait_bundle(page, pid)
+    page.reload()
+    until(page, "async (pid) => !!(await caches.match(`/projects/${pid}/rig`))", pid)
+    cut_network(tablet.context, page)
+
+    response = page.goto(tablet.url(f"/projects/{pid}/review"))
+    assert response.from_service_worker and response.status == 503
+    assert page.locator("h1").inner_text() == "Not available offline"
+    assert f"/projects/{pid}/review" in page.locator("#offline-missing").inner_text()
+    kept = page.locator("#offline-kept a")
+    hrefs = [kept.nth(i).get_attribute("href") for i in range(kept.count())]
+    assert f"/projects/{pid}/rig" in hrefs and f"/projects/{pid}/piles" in hrefs
+    assert f"/projects/{pid}/review" not in hrefs
+    assert kept.filter(has_text="At the rig · Test quay").count() >= 1  # named by the kept page's title
+    assert page.evaluate("() => document.documentElement.scrollWidth <= window.innerWidth")
+    page.screenshot(path=str(tablet.artifacts / "offline-not-kept-1280.png"))
+    page.locator(f"#offline-kept a[href='/projects/{pid}/rig']").click()
+    page.wait_for_url(f"**/projects/{pid}/rig")
+    assert page.title().startswith("At the rig · Test quay")
+    assert page.locator("#net-status").inner_text() == "offline"

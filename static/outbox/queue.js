@@ -1,4 +1,4 @@
-// Toeline outbox: nothing entered on the tablet is lost or sent twice (PRODUCT.md section 9).
+// Toeline outbox, part 1 of 3: the queue (static/outbox/queue.js).
 //
 // Every save of a pile record and every photo is written to IndexedDB FIRST, with a client_id
 // made here (crypto.randomUUID), and only then sent through the same API calls the page uses
@@ -14,13 +14,15 @@
 // again later. Items the server refused for good (422, 403, 404, locked) are kept on the
 // tablet, with the server's message, until the user dismisses them.
 //
-// The project bundle (/api/v1/projects/<id>/bundle) is kept here too, refreshed when online
-// with If-None-Match, so the At the rig page works with no signal.
 //
-// Public API: window.ToelineOutbox (see the end of this file).
+// The outbox is three plain scripts loaded in this order, sharing one internal namespace
+// (window.ToelineOutboxParts): queue.js (IndexedDB, the queue, sending, conflicts),
+// bundle.js (the project bundle and the pages kept for offline use) and panel.js (the header
+// status, the outbox panel, start-up and the public API, window.ToelineOutbox).
 
 (function () {
   "use strict";
+  const O = window.ToelineOutboxParts || (window.ToelineOutboxParts = {});
 
   // --- IndexedDB -------------------------------------------------------------------------
   const DB_NAME = "toeline";
@@ -110,9 +112,9 @@
   const channel = ("BroadcastChannel" in window) ? new BroadcastChannel("toeline-outbox") : null;
   function changed() {
     if (channel) channel.postMessage({ type: "changed" });
-    refreshStatus();
+    O.refreshStatus();
   }
-  if (channel) channel.onmessage = () => refreshStatus();
+  if (channel) channel.onmessage = () => O.refreshStatus();
 
   // --- State shown on screen -------------------------------------------------------------
   const state = {
@@ -175,7 +177,7 @@
       const message = "NOT saved on the tablet: " + why + ". Keep this screen open and send the waiting items first.";
       state.lastError = message;
       state.panelOpen = true;
-      renderPanel();
+      O.renderPanel();
       throw new Error(message);
     }
     changed();
@@ -224,7 +226,7 @@
     if (warn) {
       state.lastError = warn;
       state.panelOpen = true;
-      renderPanel();
+      O.renderPanel();
     }
     await store(item);
     return await sendAndReport(item.client_id);
@@ -259,7 +261,7 @@
         }
       } finally {
         flushing = null;
-        refreshStatus();
+        O.refreshStatus();
       }
     })();
     return flushing;
@@ -288,7 +290,7 @@
     if (session.login) {
       state.loginNeeded = true;
       state.lastError = "";
-      renderPanel();
+      O.renderPanel();
       return;               // keep every item; try again after signing in
     }
     if (session.retry) { failed(session.retry); return; }
@@ -364,7 +366,7 @@
       await idbDelete("outbox", item.client_id);
       if (item.kind === "record" && body && typeof body.version === "number") {
         await idbPut("versions", { key: pileKey(item.project_id, item.mark), version: body.version });
-        await noteInBundle(item, body);
+        await O.noteInBundle(item, body);
       }
       if (waiter) answers.set(item.client_id, { ok: true, queued: false, status: status, body: body });
       emit("sent", { item: strip(item), status: status, body: body });
@@ -374,7 +376,7 @@
     if (status === 401) {
       state.loginNeeded = true;
       await noteAttempt(item, "sign in again to send");
-      renderPanel();
+      O.renderPanel();
       return false;
     }
     if (status === 409 && isJson && body.error === "conflict" && item.kind === "record") {
@@ -486,407 +488,12 @@
     return true;
   }
 
-  // --- The project bundle ----------------------------------------------------------------
-  async function getBundle(projectId) {
-    const row = await idbGet("bundles", Number(projectId));
-    return row ? row.data : null;
-  }
 
-  // Fetch the bundle when online (If-None-Match with the kept ETag); the kept copy otherwise.
-  async function refreshBundle(projectId) {
-    projectId = Number(projectId);
-    const row = await idbGet("bundles", projectId);
-    const headers = { Accept: "application/json" };
-    if (row && row.etag) headers["If-None-Match"] = row.etag;
-    let response;
-    try {
-      response = await fetch("/api/v1/projects/" + projectId + "/bundle",
-                             { credentials: "same-origin", cache: "no-store", headers: headers });
-    } catch (err) {
-      return row ? row.data : null;
-    }
-    if (response.status === 304 && row) {
-      row.checked_at = new Date().toISOString();
-      await idbPut("bundles", row);
-      return row.data;
-    }
-    if (response.ok) {
-      const data = await response.json();
-      await idbPut("bundles", { project_id: projectId, etag: response.headers.get("ETag"),
-                                fetched_at: new Date().toISOString(), data: data });
-      emit("bundle", { project_id: projectId });
-      return data;
-    }
-    if (response.status === 401) { state.loginNeeded = true; renderPanel(); }
-    return row ? row.data : null;
-  }
-
-  // After a save reached the server: the kept bundle learns the new version and verdict.
-  async function noteInBundle(item, body) {
-    const row = await idbGet("bundles", item.project_id);
-    if (!row || !row.data || !row.data.piles || !row.data.piles[item.mark]) return;
-    const pile = row.data.piles[item.mark];
-    pile.version = body.version;
-    pile.verdict = body.verdict;
-    pile.progress = body.progress || pile.progress;
-    pile.record = item.payload.record;
-    pile.result = body;
-    await idbPut("bundles", row);
-  }
-
-  // One pile's rig data (the shape of services.rig_data) from a bundle; null when absent.
-  // The same assembly as fieldapp.offline.rig_data_from_bundle.
-  function rigData(bundle, mark) {
-    if (!bundle || !bundle.piles || !bundle.piles[mark]) return null;
-    const pile = bundle.piles[mark];
-    const ground = bundle.ground_models[pile.ground] || {};
-    const keys = ["mark", "project_id", "version", "progress", "verdict", "design", "record", "result",
-                  "load_kn", "curve_error", "required_toe_level", "rules_version"];
-    const out = {};
-    keys.forEach((k) => { if (k in pile) out[k] = pile[k]; });
-    out.curve = pile.curve ? bundle.curves[pile.curve] : null;
-    out.limits = bundle.limits;
-    out.ground_top = ground.ground_top;
-    out.ground_bottom = ground.ground_bottom;
-    out.layers = ground.layers;
-    return out;
-  }
-
-  // The rig data of a pile for offline use: from the kept bundle, with the newest record this
-  // tablet saved for it (waiting or in conflict) in place of the server's.
-  async function pileOffline(projectId, mark) {
-    const data = rigData(await getBundle(projectId), mark);
-    if (!data) return null;
-    const mine = (await allItems()).filter((i) => i.kind === "record" && i.project_id === Number(projectId) &&
-                                               i.mark === mark && i.state !== "rejected");
-    if (mine.length) {
-      data.record = mine[mine.length - 1].payload.record;
-      data.pending = mine.length;
-    }
-    return data;
-  }
-
-  // --- Header status, "Send now" and the outbox panel --------------------------------------
-  async function counts() {
-    const items = await allItems();
-    const c = { waiting: 0, conflict: 0, rejected: 0, bytes: 0, items: items };
-    items.forEach((i) => { c[i.state] = (c[i.state] || 0) + 1; c.bytes += itemBytes(i); });
-    return c;
-  }
-
-  function showNet() {
-    const el = document.getElementById("net-status");
-    if (!el) return;
-    const online = navigator.onLine !== false;
-    el.textContent = online ? "online" : "offline";
-    el.classList.toggle("offline", !online);
-    el.dataset.state = online ? "online" : "offline";
-  }
-
-  let lastCounts = { waiting: 0, conflict: 0, rejected: 0, bytes: 0, items: [] };
-  async function refreshStatus() {
-    showNet();
-    try { lastCounts = await counts(); } catch (err) { return; }
-    state.outboxBytes = lastCounts.bytes;
-    const el = document.getElementById("outbox-status");
-    if (el) {
-      const parts = [lastCounts.waiting + " waiting"];  // always shown, 0 included (PRODUCT.md 9)
-      if (lastCounts.conflict) parts.push(lastCounts.conflict + " to resolve");
-      if (lastCounts.rejected) parts.push(lastCounts.rejected + " refused");
-      if (lastCounts.waiting && state.persisted === false) parts.push("storage not guaranteed");
-      el.textContent = parts.join(" · ");
-      el.dataset.waiting = String(lastCounts.waiting);
-      el.dataset.conflicts = String(lastCounts.conflict);
-      el.title = "Saved on this tablet, not yet on the server. Tap for details.";
-    }
-    ensureButtons();
-    const send = document.getElementById("outbox-send");
-    if (send) {
-      send.hidden = !(lastCounts.waiting > 0);
-      send.style.display = send.hidden ? "none" : "";  // .btn sets display, which beats [hidden]
-    }
-    emit("outbox", { waiting: lastCounts.waiting, conflict: lastCounts.conflict, rejected: lastCounts.rejected });
-    renderPanel();
-  }
-
-  function ensureButtons() {
-    const status = document.getElementById("outbox-status");
-    if (!status || document.getElementById("outbox-send")) return;
-    status.setAttribute("role", "button");
-    status.tabIndex = 0;
-    const toggle = () => { state.panelOpen = !state.panelOpen; renderPanel(); };
-    status.addEventListener("click", toggle);
-    status.addEventListener("keydown", (e) => { if (e.key === "Enter" || e.key === " ") { e.preventDefault(); toggle(); } });
-    const send = document.createElement("button");
-    send.type = "button";
-    send.id = "outbox-send";
-    send.className = "btn small";
-    send.textContent = "Send now";
-    send.hidden = true;
-    send.style.display = "none";
-    send.addEventListener("click", () => { clearTimer(); flush(); });
-    status.insertAdjacentElement("afterend", send);
-  }
-
-  function el(tag, attrs, children) {
-    const node = document.createElement(tag);
-    Object.keys(attrs || {}).forEach((k) => {
-      if (k === "text") node.textContent = attrs[k];
-      else if (k === "class") node.className = attrs[k];
-      else node.setAttribute(k, attrs[k]);
-    });
-    (children || []).forEach((c) => { if (c) node.appendChild(typeof c === "string" ? document.createTextNode(c) : c); });
-    return node;
-  }
-
-  function panelNode() {
-    let panel = document.getElementById("outbox-panel");
-    if (!panel) {
-      const main = document.querySelector("main") || document.body;
-      panel = el("section", { id: "outbox-panel", class: "card outbox-panel", "aria-live": "polite" });
-      panel.hidden = true;
-      main.insertBefore(panel, main.firstChild);
-    }
-    return panel;
-  }
-
-  function renderPanel() {
-    if (!document.body) return;
-    const c = lastCounts;
-    const insecure = window.isSecureContext === false;
-    const attention = state.loginNeeded || c.conflict > 0 || c.rejected > 0 || nearlyFull() || insecure;
-    const panel = panelNode();
-    panel.hidden = !(state.panelOpen || attention);
-    if (panel.hidden) return;
-    panel.textContent = "";
-    panel.appendChild(el("h2", { text: "Outbox: saved on this tablet" }));
-    if (state.loginNeeded) {
-      const next = location.pathname + location.search;
-      panel.appendChild(el("p", { class: "flash", role: "alert", id: "outbox-login" }, [
-        "Your sign-in has expired. Everything waiting stays on this tablet. ",
-        el("a", { class: "btn primary", href: "/login?next=" + encodeURIComponent(next), text: "Sign in again" }),
-      ]));
-    }
-    if (insecure) {
-      panel.appendChild(el("p", { class: "flash", role: "alert", id: "outbox-insecure" }, [
-        "This page came over plain HTTP, so the browser will not keep Toeline for use with no signal. " +
-        "Use the https:// address of the site laptop. ",
-        el("a", { href: "/site-ca", text: "How to set up the tablet" }),
-      ]));
-    }
-    const warn = storageWarning();
-    if (warn) panel.appendChild(el("p", { class: "flash", role: "alert", id: "outbox-storage-warning", text: warn }));
-    panel.appendChild(el("p", { id: "outbox-storage", text: storageLine() }));
-    if (state.lastError && c.waiting) {
-      const when = state.nextTryAt ? " Next try at " + new Date(state.nextTryAt).toLocaleTimeString() + "." : "";
-      panel.appendChild(el("p", { text: "Not sent yet: " + state.lastError + "." + when }));
-    }
-    if (!c.items.length) {
-      panel.appendChild(el("p", { text: "Nothing waiting: everything saved on this tablet is on the server." }));
-    }
-    c.items.forEach((item) => panel.appendChild(itemNode(item)));
-  }
-
-  function storageLine() {
-    const parts = ["Outbox holds " + formatBytes(state.outboxBytes) + "."];
-    if (state.quota) {
-      parts.push("This site uses " + formatBytes(state.usage) + " of " + formatBytes(state.quota) +
-        " the browser allows (" + Math.round(100 * (state.usage || 0) / state.quota) + " %).");
-    }
-    if (state.persisted === true) parts.push("The browser keeps this storage until you clear it.");
-    return parts.join(" ");
-  }
-
-  function nearlyFull() {
-    return Boolean((state.quota && state.usage > QUOTA_WARN * state.quota) ||
-                   (state.lastError && /storage|full/i.test(state.lastError)));
-  }
-
-  function storageWarning() {
-    const out = [];
-    if (state.persisted === false) {
-      out.push("The browser did not agree to keep this site's storage for good: if the tablet runs short " +
-        "of space it may clear it. Send waiting items when you have signal; installing the app to the " +
-        "home screen usually lets the browser keep it.");
-    }
-    if (state.quota && state.usage > QUOTA_WARN * state.quota) {
-      out.push("Storage nearly full: " + formatBytes(state.usage) + " of " + formatBytes(state.quota) +
-        ". Send the waiting items before taking more photos.");
-    }
-    if (state.lastError && /storage|full/i.test(state.lastError)) out.push(state.lastError);
-    return out.join(" ");
-  }
-
-  function itemNode(item) {
-    const what = item.kind === "photo"
-      ? "Photo (" + item.photo.kind + ", " + formatBytes(item.photo.size) + ")"
-      : "Record" + (item.payload.record && item.payload.record.progress ? " (" + item.payload.record.progress + ")" : "");
-    const box = el("div", { class: "outbox-item " + item.state, "data-client-id": item.client_id, "data-state": item.state });
-    box.appendChild(el("p", {}, [el("strong", { text: "Pile " + item.mark + ": " + what }),
-      " saved " + new Date(item.created_at).toLocaleString() + " · " + stateWords(item)]));
-    if (item.state === "conflict") box.appendChild(conflictNode(item));
-    if (item.state === "rejected") {
-      box.appendChild(el("p", { class: "error", text: "Refused by the server: " + item.last_error }));
-      const keep = el("button", { type: "button", class: "btn small", text: "Dismiss (I have re-entered it)" });
-      keep.addEventListener("click", () => dismiss(item.client_id));
-      box.appendChild(keep);
-    }
-    return box;
-  }
-
-  function stateWords(item) {
-    if (item.state === "waiting") return item.attempts ? "waiting, tried " + item.attempts + "×" : "waiting";
-    if (item.state === "conflict") return "changed on the server meanwhile: choose which to keep";
-    return "refused";
-  }
-
-  function show(value) {
-    if (value === undefined || value === null || value === "") return "—";
-    if (typeof value === "object") return JSON.stringify(value);
-    return String(value);
-  }
-
-  function conflictNode(item) {
-    const mine = item.payload.record || {};
-    const server = item.server || {};
-    const theirs = server.record || {};
-    const keys = Array.from(new Set(Object.keys(mine).concat(Object.keys(theirs)))).sort();
-    const table = el("table", { class: "conflict" }, [
-      el("caption", { text: "Pile " + item.mark + ": this tablet's record beside the server's version " +
-        show(server.version) + (server.created_by ? " (" + server.created_by + ", " + show(server.created_at) + ")" : "") }),
-      el("thead", {}, [el("tr", {}, [el("th", { text: "Field" }), el("th", { text: "On this tablet" }),
-                                      el("th", { text: "On the server" })])]),
-    ]);
-    const body = el("tbody");
-    keys.forEach((k) => {
-      const a = show(mine[k]);
-      const b = show(theirs[k]);
-      const row = el("tr", { class: a === b ? "same" : "differs" }, [
-        el("th", { text: k + (a === b ? "" : " (differs)") }), el("td", { text: a }), el("td", { text: b })]);
-      body.appendChild(row);
-    });
-    table.appendChild(body);
-    const wrap = el("div", { class: "conflict-choice" }, [table]);
-    const mineBtn = el("button", { type: "button", class: "btn primary", "data-action": "keep-mine",
-                                   text: "Send this tablet's record as the newest version" });
-    mineBtn.addEventListener("click", () => keepMine(item.client_id));
-    const theirsBtn = el("button", { type: "button", class: "btn", "data-action": "keep-server",
-                                     text: "Keep the server's version" });
-    theirsBtn.addEventListener("click", () => {
-      if (theirsBtn.dataset.armed) { keepServers(item.client_id); return; }
-      theirsBtn.dataset.armed = "1";
-      theirsBtn.textContent = "Tap again to discard this tablet's record";
-    });
-    wrap.appendChild(el("p", { text: "Both versions are kept until you choose. Sending the tablet's record keeps the " +
-      "server's version in the pile's history." }));
-    wrap.appendChild(mineBtn);
-    wrap.appendChild(document.createTextNode(" "));
-    wrap.appendChild(theirsBtn);
-    return wrap;
-  }
-
-  // --- Pages for offline use -------------------------------------------------------------
-  function projectIdFromUrl() {
-    const m = location.pathname.match(/^\/projects\/(\d+)(\/|$)/);
-    return m ? Number(m[1]) : null;
-  }
-
-  // Ask the service worker to keep some pages of this project for offline use.
-  function cachePages(urls) {
-    if (!navigator.serviceWorker || !navigator.serviceWorker.controller || !urls.length) return Promise.resolve(null);
-    return new Promise((resolve) => {
-      const ch = new MessageChannel();
-      ch.port1.onmessage = (e) => resolve(e.data);
-      navigator.serviceWorker.controller.postMessage({ type: "cache-pages", urls: urls }, [ch.port2]);
-      setTimeout(() => resolve(null), 30000);
-    });
-  }
-
-  function forgetPages() {
-    if (!navigator.serviceWorker || !navigator.serviceWorker.controller) return Promise.resolve();
-    return new Promise((resolve) => {
-      const ch = new MessageChannel();
-      ch.port1.onmessage = () => resolve();
-      navigator.serviceWorker.controller.postMessage({ type: "forget-pages" }, [ch.port2]);
-      setTimeout(resolve, 1000);
-    });
-  }
-
-  // On a project's page, once per session: keep the At the rig pick page and one pile's rig
-  // page in the worker's cache, so that any pile of the project opens offline (the worker
-  // serves that page as the shell and rig.js fills the pile in from the bundle).
-  async function warmProject(projectId, bundle) {
-    const key = "toeline-warm-" + projectId;
-    try { if (sessionStorage.getItem(key)) return; } catch (err) { /* private mode */ }
-    if (!bundle || !bundle.piles || !navigator.serviceWorker || !navigator.serviceWorker.controller) return;
-    const marks = Object.keys(bundle.piles);
-    if (!marks.length) return;
-    const base = "/projects/" + projectId + "/rig";
-    const answer = await cachePages([base, base + "/" + encodeURIComponent(marks[0])]);
-    if (answer && answer.ok) {
-      try { sessionStorage.setItem(key, "1"); } catch (err) { /* private mode */ }
-    }
-  }
-
-  // At log-out: drop the cached pages and project bundles (another person may use the tablet
-  // next); the outbox stays, and is sent when someone signs in again.
-  function hookLogout() {
-    document.querySelectorAll("form.logout").forEach((form) => {
-      form.addEventListener("submit", (event) => {
-        if (form.dataset.cleared) return;
-        event.preventDefault();
-        const done = () => { form.dataset.cleared = "1"; form.submit(); };
-        try { sessionStorage.clear(); } catch (err) { /* private mode */ }
-        Promise.all([forgetPages(), tx("bundles", "readwrite", (s) => s.clear())]).then(done, done);
-      });
-    });
-  }
-
-  // --- Start ------------------------------------------------------------------------------
-  async function start() {
-    showNet();
-    hookLogout();
-    await checkStorage(true);
-    await refreshStatus();
-    window.addEventListener("online", () => { showNet(); clearTimer(); flush(); const p = projectIdFromUrl(); if (p) refreshBundle(p); });
-    window.addEventListener("offline", () => { showNet(); refreshStatus(); });
-    document.addEventListener("visibilitychange", () => { if (!document.hidden && navigator.onLine !== false) flush(); });
-    const projectId = projectIdFromUrl();
-    if (projectId && navigator.onLine !== false) {
-      refreshBundle(projectId).then((bundle) => warmProject(projectId, bundle)).catch(() => {});
-    }
-    if (projectId && navigator.serviceWorker) {
-      // First visit: the worker takes control of this page only now; keep the rig shell then.
-      navigator.serviceWorker.addEventListener("controllerchange", () => {
-        getBundle(projectId).then((bundle) => warmProject(projectId, bundle)).catch(() => {});
-      });
-    }
-    if (navigator.onLine !== false) flush();
-  }
-
-  const ready = new Promise((resolve) => {
-    const go = () => start().then(resolve, (err) => { console.error("outbox", err); resolve(); });
-    if (document.readyState === "loading") document.addEventListener("DOMContentLoaded", go);
-    else go();
+  // --- Shared with bundle.js and panel.js --------------------------------------------------
+  Object.assign(O, {
+    tx: tx, idbGet: idbGet, idbPut: idbPut, idbDelete: idbDelete, allItems: allItems,
+    newId: newId, formatBytes: formatBytes, itemBytes: itemBytes, emit: emit, state: state,
+    QUOTA_WARN: QUOTA_WARN, checkStorage: checkStorage, saveRecord: saveRecord, savePhoto: savePhoto,
+    flush: flush, clearTimer: clearTimer, keepMine: keepMine, keepServers: keepServers, dismiss: dismiss,
   });
-
-  window.ToelineOutbox = {
-    ready: ready,
-    newId: newId,
-    saveRecord: saveRecord,
-    savePhoto: savePhoto,
-    flush: flush,
-    items: allItems,
-    counts: () => counts().then((c) => ({ waiting: c.waiting, conflict: c.conflict, rejected: c.rejected, bytes: c.bytes })),
-    keepMine: keepMine,
-    keepServers: keepServers,
-    dismiss: dismiss,
-    getBundle: getBundle,
-    refreshBundle: refreshBundle,
-    rigData: rigData,
-    pileOffline: pileOffline,
-    cachePages: cachePages,
-    storage: () => checkStorage(false).then(() => ({ persisted: state.persisted, usage: state.usage,
-                                                     quota: state.quota, outbox: state.outboxBytes })),
-  };
 })();
