@@ -10,7 +10,7 @@ import sys
 
 import click
 
-from fieldapp import create_app, db
+from fieldapp import create_app, datalock, db
 
 DEFAULT_DATA = "toeline-data"
 
@@ -24,6 +24,15 @@ def data_option(f):
 def _app(ctx: click.Context, data_dir: str | None):
     folder = data_dir or ctx.obj["data"]
     return create_app(data_dir=folder)
+
+
+def _hold_folder(ctx: click.Context, data_dir: str | None, doing: str) -> None:
+    """Take the data folder's lock for this process's life (fieldapp.datalock): a restore is
+    refused while it is held, and a second server on the same folder cannot start."""
+    try:
+        datalock.acquire(data_dir or ctx.obj["data"], doing)
+    except datalock.FolderInUse as exc:
+        raise click.ClickException(str(exc)) from None
 
 
 @click.group()
@@ -58,7 +67,10 @@ def init(ctx, data_dir):
               help="With --https: an extra host name or address for the certificate (repeatable).")
 @click.pass_context
 def serve(ctx, data_dir, host, port, threads, use_https, names):
-    """Serve the app with waitress (the production WSGI server), or over HTTPS with --https."""
+    """Serve the app with waitress (the production WSGI server), or over HTTPS with --https.
+
+    Holds the data folder's lock while it runs, so ``toeline restore`` refuses meanwhile."""
+    _hold_folder(ctx, data_dir, "serve")
     app = _app(ctx, data_dir)
     if use_https:
         from fieldapp import https
@@ -173,6 +185,7 @@ def demo(ctx, data_dir, host, port, no_serve):
     from fieldapp import demo as demo_data
     from fieldapp.queries import projects
 
+    _hold_folder(ctx, data_dir, "serve the demo")
     app = _app(ctx, data_dir)
     with app.app_context():
         conn = db.get_db()
