@@ -179,7 +179,9 @@ def check_backup(src: Path) -> list[str]:
     return problems
 
 
-def _photo_sha(photo_dir: Path):
+def photo_sha(photo_dir: Path):
+    """A function (sha256, format) -> SHA-256 of that photo's original file under ``photo_dir``,
+    None when the file is missing or a link."""
     def sha(digest: str, fmt: str) -> str | None:
         path = photos.original_path(photo_dir, digest, fmt)
         if path.is_symlink() or not path.is_file():
@@ -211,7 +213,7 @@ def check_database(path: Path, photo_dir: Path, anchors: list[audit.Anchor] = ()
             if not report.ok:
                 problems.append(f"the audit chain of {name} is broken: {report.problem}")
             elif chain is not None:
-                coverage = audit.verify_content(conn, chain, _photo_sha(photo_dir))
+                coverage = audit.verify_content(conn, chain, photo_sha(photo_dir))
                 problems.extend(f"project {chain}: {p}" for p in coverage.problems)
         for anchor in anchors:
             problem = audit.check_anchor(conn, anchor)

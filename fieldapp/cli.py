@@ -147,6 +147,29 @@ def user_end_sessions(ctx, data_dir, email):
     click.echo(f"{ended} session{'s' if ended != 1 else ''} of {found.email} ended")
 
 
+@main.command("audit-head")
+@data_option
+@click.argument("project_id", type=int)
+@click.pass_context
+def audit_head(ctx, data_dir, project_id):
+    """Print the head (SEQ:HASH) of PROJECT_ID's audit chain, for an engineer to keep outside the
+    data folder; ``toeline verify-audit PROJECT_ID --head SEQ:HASH`` later proves the chain still
+    holds it (nothing deleted from its end, nothing renumbered or rehashed)."""
+    from fieldapp.queries import audit, projects
+
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        conn = db.get_db()
+        project = projects.get(conn, project_id)
+        if project is None:
+            raise click.ClickException(f"project {project_id} does not exist")
+        seq, digest = audit.head(conn, project_id)
+        at = audit.now_iso()
+    click.echo(f"{seq}:{digest}")
+    click.echo(f"head of the audit chain of project {project_id} ({project.name}) at {at}; keep it, "
+               f"then check with: toeline verify-audit {project_id} --head {seq}:{digest}", err=True)
+
+
 @main.group()
 def photos():
     """Look after the photo files."""
