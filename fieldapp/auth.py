@@ -8,6 +8,7 @@ never learns that another project's id exists.
 from __future__ import annotations
 
 import functools
+from urllib.parse import quote, unquote
 
 from flask import (Blueprint, abort, current_app, flash, g, jsonify, redirect, render_template, request,
                    session, url_for)
@@ -110,6 +111,29 @@ def admin_required(view):
     return wrapped
 
 
+# What a path and query may hold unescaped (RFC 3986 pchar, "/" and "?"); anything else is
+# percent-escaped before the checks, so no raw control character, space or backslash remains.
+_PATH_SAFE = "/?-._~!$&'()*+,;=:@%"
+
+
+def safe_next(target) -> str | None:
+    """``target`` (escaped) when it is a same-site relative path to follow after sign-in, else None.
+
+    Refused: anything not starting with one "/" ("//evil", "https://...", "javascript:"),
+    backslashes ("/\\evil", which browsers read as "//evil"), control characters (browsers drop
+    a tab or line break, so "/\t/evil" becomes "//evil"; a line break in a Location header is a
+    500), and the same again once percent-escapes are decoded ("/%2F/evil"). A letter outside
+    ASCII (a pile mark "Pé") is kept, percent-escaped.
+    """
+    if not isinstance(target, str) or not target.startswith("/"):
+        return None
+    decoded = unquote(target)
+    for text in (target, decoded):
+        if text.startswith(("//", "/\\")) or any(ch < " " or ch == "\x7f" or ch == "\\" for ch in text):
+            return None
+    return quote(target, safe=_PATH_SAFE)
+
+
 def project_or_404(project_id: int) -> projects.Project:
     """The project when the signed-in user may see it (member, or admin); 404 otherwise."""
     conn = db.get_db()
@@ -151,10 +175,7 @@ def login():
         session.clear()  # a new session at every login
         session["sid"] = token
         session.permanent = True
-        target = request.args.get("next") or ""
-        if not target.startswith("/") or target.startswith("//"):
-            target = url_for("auth.index")
-        return redirect(target)
+        return redirect(safe_next(request.args.get("next")) or url_for("auth.index"))
     status = 400 if request.method == "POST" else 200
     return render_template("login.html", form=form), status
 
