@@ -147,7 +147,18 @@ def project_or_404(project_id: int) -> projects.Project:
 
 @bp.route("/login", methods=["GET", "POST"])
 def login():
-    """Sign in with email and password; repeated failures are slowed down (429)."""
+    """Sign in with email and password; repeated failures are slowed down (429).
+
+    Two limits within LOGIN_WINDOW_S: LOGIN_MAX_FAILURES wrong passwords for one email lock that
+    email (even the right password waits), and LOGIN_MAX_FAILURES_PER_IP failures from one
+    address, for any email, lock that address, with one exception: the right password of a
+    user who has signed in successfully from this address before passes the address limit.
+    A site office shares one address, so without the exception one person's (or one broken
+    tablet's) failures would lock out every engineer there; the exception gives a guesser
+    nothing, because the per-email limit still holds for everyone and an address that never
+    signed this user in stays locked. Only a known address costs a password check past the
+    limit (no hashing work for an address that is locked out).
+    """
     form = LoginForm()
     if form.validate_on_submit():
         conn = db.get_db()
@@ -158,19 +169,22 @@ def login():
         if users.recent_failures(conn, email, window) >= max_failures:
             flash(f"Too many failed logins for this email: wait {window // 60} minutes and try again.")
             return render_template("login.html", form=form), 429
-        if users.recent_failures_from(conn, ip, window) >= current_app.config["LOGIN_MAX_FAILURES_PER_IP"]:
-            flash(f"Too many failed logins from this device's network: wait {window // 60} minutes "
-                  "and try again.")
-            return render_template("login.html", form=form), 429
+        address_locked = (users.recent_failures_from(conn, ip, window)
+                          >= current_app.config["LOGIN_MAX_FAILURES_PER_IP"])
+        if address_locked and not users.known_address(conn, email, ip):
+            return _address_locked(form, window)
         user = users.authenticate(conn, email, form.password.data)
         if user is None:
             with db.write(conn):
                 users.record_login_failure(conn, email, ip)
                 audit.append(conn, None, email, "login failed", email, {"ip": ip})
+            if address_locked:
+                return _address_locked(form, window)
             flash("Email or password is wrong.")
             return render_template("login.html", form=form), 401
         with db.write(conn):
             users.clear_failures(conn, email)
+            users.remember_address(conn, user.id, ip)
             token = users.start_session(conn, user.id)
         session.clear()  # a new session at every login
         session["sid"] = token
@@ -178,6 +192,12 @@ def login():
         return redirect(safe_next(request.args.get("next")) or url_for("auth.index"))
     status = 400 if request.method == "POST" else 200
     return render_template("login.html", form=form), status
+
+
+def _address_locked(form, window: int):
+    flash(f"Too many failed logins from this device's network: wait {window // 60} minutes and try "
+          "again (someone who has signed in from here before may sign in with their password).")
+    return render_template("login.html", form=form), 429
 
 
 @bp.post("/logout")

@@ -78,3 +78,32 @@ def test_whatever_is_followed_is_a_plain_same_site_path(target):
             assert text.startswith("/") and not text.startswith("//")
             assert not any(ch < " " or ch in "\x7f\\" for ch in text)
         assert all(" " < ch < "\x7f" for ch in followed), "a Location header holds only plain ASCII"
+
+
+def _try(client, email, password, ip):
+    token = _META.search(client.get("/login", environ_base={"REMOTE_ADDR": ip}).get_data(as_text=True)).group(1)
+    return client.post("/login", data={"email": email, "password": password, "csrf_token": token},
+                       environ_base={"REMOTE_ADDR": ip})
+
+
+def test_a_known_address_passes_the_per_address_limit_with_the_right_password(app):
+    site, elsewhere = "10.1.2.3", "10.9.9.9"
+    limit = app.config["LOGIN_MAX_FAILURES_PER_IP"]
+    engineer, inspector = LOGINS["engineer"], LOGINS["inspector"]
+    assert _try(app.test_client(), *engineer, site).status_code == 302  # signed in here before
+    assert _try(app.test_client(), *inspector, elsewhere).status_code == 302  # never from the site
+    attacker = app.test_client()
+    for n in range(limit):
+        assert _try(attacker, f"guess{n}@toeline.example", "wrong password", site).status_code == 401
+    # The address is locked: a stranger's next try, and a user who never signed in from here.
+    assert _try(attacker, "guess@toeline.example", "wrong password", site).status_code == 429
+    assert _try(app.test_client(), *inspector, site).status_code == 429
+    # The engineer who signed in from here before gets in with the right password ...
+    assert _try(app.test_client(), *engineer, site).status_code == 302
+    # ... but not with a wrong one, which still counts.
+    answer = _try(app.test_client(), engineer[0], "wrong password", site)
+    assert answer.status_code == 429
+    # The per-email limit is kept for everyone, known address or not.
+    for _ in range(app.config["LOGIN_MAX_FAILURES"]):
+        _try(app.test_client(), engineer[0], "wrong password", site)
+    assert _try(app.test_client(), *engineer, site).status_code == 429
