@@ -23,6 +23,7 @@ import io
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from fieldapp import text_rules
 from fieldapp.queries import audit, caps, ground, piles, projects
 from fieldapp.queries.piles import (FIELD_BY_NAME, FIELDS, MARK_MAX, check_in_ground, check_pile, check_value,
                                     label_problem)
@@ -228,25 +229,37 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
         row_errors: list[RowError] = []
         if "" in raw:
             row_errors.append(RowError(number, "", "the row has more cells than the header has columns"))
+        unreadable = {}
+        for column, text in raw.items():
+            problem = text_rules.name_problem(column or "cell", text) if column in COLUMNS else None
+            if problem:
+                unreadable[column] = problem
+                row_errors.append(RowError(number, column, problem))
         mark = raw.get("mark", "").strip()
-        if not mark:
+        if "mark" in unreadable:
+            pass
+        elif not mark:
             row_errors.append(RowError(number, "mark", f"mark is required (1 to {MARK_MAX} characters)"))
         elif len(mark) > MARK_MAX:
             row_errors.append(RowError(number, "mark", f"mark must be at most {MARK_MAX} characters"))
-        elif label_problem("mark", mark):
-            row_errors.append(RowError(number, "mark", label_problem("mark", mark)))
+        elif text_rules.mark_problem("mark", mark):
+            row_errors.append(RowError(number, "mark", text_rules.mark_problem("mark", mark)))
         elif mark in marks_at:
             row_errors.append(RowError(number, "mark", f"mark {mark} is also on row {marks_at[mark]}"))
         else:
             marks_at[mark] = number
         cap = raw.get("cap", "").strip()
-        if len(cap) > 40:
+        if "cap" in unreadable:
+            pass
+        elif len(cap) > 40:
             row_errors.append(RowError(number, "cap", "cap must be at most 40 characters"))
         elif label_problem("cap", cap):
             row_errors.append(RowError(number, "cap", label_problem("cap", cap)))
         model_name = raw.get("ground_model", "").strip()
         model_id = models.get(model_name)
-        if not model_name:
+        if "ground_model" in unreadable:
+            pass
+        elif not model_name:
             row_errors.append(RowError(number, "ground_model", "ground_model is required: the name of one "
                                        f"of the project's ground models ({', '.join(sorted(models)) or 'none yet'})"))
         elif model_id is None:
@@ -254,6 +267,9 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
                                        f"project's ground models ({', '.join(sorted(models)) or 'none yet'})"))
         values = {"mark": mark, "cap": cap or None, "ground_model_id": model_id}
         for spec in FIELDS:
+            if spec.name in unreadable:
+                values[spec.name] = None
+                continue
             value, message = check_value(spec, raw.get(spec.name, ""))
             if message:
                 row_errors.append(RowError(number, spec.name, message))
@@ -343,12 +359,15 @@ def _text(value) -> str:
 
 
 def to_csv(rows: list[dict]) -> bytes:
-    """CSV bytes (UTF-8, comma, header row) of export rows; floats keep every digit."""
+    """CSV bytes (UTF-8, comma, header row) of export rows; floats keep every digit. A text cell
+    beginning like a formula (=, +, -, @, tab, CR: one stored before such text was refused)
+    gets a leading apostrophe, so a spreadsheet shows it as text (``text_rules.csv_cell``)."""
     buf = io.StringIO(newline="")
     writer = csv.writer(buf, lineterminator="\r\n")
     writer.writerow(COLUMNS)
     for row in rows:
-        writer.writerow([_text(row[c]) for c in COLUMNS])
+        writer.writerow([text_rules.csv_cell(_text(row[c])) if isinstance(row[c], str) else _text(row[c])
+                         for c in COLUMNS])
     return buf.getvalue().encode("utf-8")
 
 
@@ -363,7 +382,7 @@ def to_xlsx(rows: list[dict]) -> bytes:
     def cell(value):
         if not isinstance(value, str):
             return value
-        text = WriteOnlyCell(sheet, value=value)
+        text = WriteOnlyCell(sheet, value=text_rules.visible(value))
         text.data_type = "s"  # never a formula, whatever the text starts with
         return text
 
