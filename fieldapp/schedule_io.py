@@ -20,6 +20,8 @@ from __future__ import annotations
 import csv
 import hashlib
 import io
+import re
+import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -58,6 +60,13 @@ COLUMN_DOC = {
 }
 MAX_ROWS = 20_000
 MAX_BYTES = 10 * 1024 * 1024
+# Limits of what a schedule file may hold, checked before it is read whole: rows (blank ones
+# included), columns, characters in one cell, and for XLSX (a zip of XML files) the size of
+# its parts once decompressed. A small file can decompress to gigabytes (a "zip bomb").
+MAX_COLUMNS = 64
+MAX_CELL_CHARS = 2_000
+MAX_XLSX_UNCOMPRESSED = 64 * 1024 * 1024
+MAX_XLSX_PARTS = 2_000
 
 
 @dataclass(frozen=True)
@@ -113,10 +122,25 @@ def _cell_text(value) -> str:
     return str(value).strip()
 
 
+def _too_many_rows(number: int) -> ValueError:
+    return ValueError(f"the file holds more than {MAX_ROWS:,} rows (row {number:,} reached, blank rows "
+                      "included): split it, or delete the rows below the schedule")
+
+
+def _check_cells(number: int, cells) -> None:
+    if len(cells) > MAX_COLUMNS and any(str(c).strip() for c in cells[MAX_COLUMNS:]):
+        raise ValueError(f"row {number:,} has {len(cells):,} cells: a schedule has at most {MAX_COLUMNS} columns")
+    for i, cell in enumerate(cells[:MAX_COLUMNS], start=1):
+        if isinstance(cell, str) and len(cell) > MAX_CELL_CHARS:
+            raise ValueError(f"row {number:,}, cell {i} holds {len(cell):,} characters: at most "
+                             f"{MAX_CELL_CHARS:,} are allowed in one cell")
+
+
 def read_csv(data: bytes) -> tuple[list[str], list[tuple[int, dict]]]:
     """(header, [(row number, {column: text})]) from CSV bytes (UTF-8, comma, semicolon or tab).
 
-    ValueError when the bytes are not UTF-8 text.
+    ValueError when the bytes are not UTF-8 text, or the file is beyond MAX_ROWS (blank rows
+    included), MAX_COLUMNS or MAX_CELL_CHARS, or is not CSV the reader can parse.
     """
     try:
         text = data.decode("utf-8-sig")
@@ -129,42 +153,130 @@ def read_csv(data: bytes) -> tuple[list[str], list[tuple[int, dict]]]:
     except csv.Error:
         delimiter = ","
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
-    rows = list(reader)
-    if not rows:
-        return [], []
-    header = [h.strip() for h in rows[0]]
-    while header and not header[-1]:
-        header.pop()
+    header: list[str] = []
     out = []
-    for number, cells in enumerate(rows[1:], start=2):
-        if not any(c.strip() for c in cells):
-            continue
-        row = {h: (cells[i].strip() if i < len(cells) else "") for i, h in enumerate(header)}
-        if any(c.strip() for c in cells[len(header):]):
-            row[""] = "x"
-        out.append((number, row))
+    try:
+        for number, cells in enumerate(reader, start=1):
+            if number > MAX_ROWS + 1:
+                raise _too_many_rows(number)
+            _check_cells(number, cells)
+            if number == 1:
+                header = [h.strip() for h in cells]
+                while header and not header[-1]:
+                    header.pop()
+                continue
+            if not any(c.strip() for c in cells):
+                continue
+            row = {h: (cells[i].strip() if i < len(cells) else "") for i, h in enumerate(header)}
+            if any(c.strip() for c in cells[len(header):]):
+                row[""] = "x"
+            out.append((number, row))
+    except csv.Error as exc:
+        raise ValueError(f"the file cannot be read as CSV (line {reader.line_num:,}: {exc})") from None
     return header, out
+
+
+_COLUMN_LETTERS = re.compile(r"[A-Z]+")
+
+
+def _column_number(ref: str) -> int:
+    match = _COLUMN_LETTERS.match(ref or "")
+    number = 0
+    for letter in match.group() if match else "":
+        number = number * 26 + ord(letter) - 64
+    return number
+
+
+def check_xlsx_parts(data: bytes) -> None:
+    """Refuse an XLSX file before openpyxl opens it when it is not a zip, has too many parts,
+    decompresses beyond MAX_XLSX_UNCOMPRESSED, or a sheet holds more than MAX_ROWS rows (blank
+    ones included: the row numbers count), more than MAX_COLUMNS columns or a cell (or shared
+    string) longer than MAX_CELL_CHARS. The XML is read as a stream, element by element, so a
+    hostile file costs no more memory than its largest allowed cell. ValueError naming the
+    problem."""
+    import zipfile
+    from xml.etree.ElementTree import ParseError, iterparse
+
+    try:
+        archive = zipfile.ZipFile(io.BytesIO(data))
+        parts = archive.infolist()
+    except (zipfile.BadZipFile, OSError, ValueError, EOFError) as exc:
+        raise ValueError(f"the file is not an XLSX workbook (not a readable zip: {exc})") from None
+    if len(parts) > MAX_XLSX_PARTS:
+        raise ValueError(f"the workbook has {len(parts):,} parts: at most {MAX_XLSX_PARTS:,} are allowed")
+    total = sum(p.file_size for p in parts)
+    if total > MAX_XLSX_UNCOMPRESSED:
+        raise ValueError(f"the workbook decompresses to {total / 1_048_576:,.0f} MB: at most "
+                         f"{MAX_XLSX_UNCOMPRESSED // 1_048_576} MB are allowed (a schedule of "
+                         f"{MAX_ROWS:,} piles needs far less)")
+    for part in parts:
+        name = part.filename
+        if not name.endswith(".xml") or not (name.startswith("xl/worksheets/") or name == "xl/sharedStrings.xml"):
+            continue
+        sheet = name.startswith("xl/worksheets/")
+        try:
+            with archive.open(part) as stream:
+                head = stream.peek(4096)[:4096] if hasattr(stream, "peek") else b""
+                if b"<!DOCTYPE" in head or b"<!ENTITY" in head:
+                    raise ValueError(f"the workbook part {name} declares XML entities: refused")
+                cells_in_row = rows = 0
+                open_elements = []
+                for event, element in iterparse(stream, events=("start", "end")):
+                    tag = element.tag.rsplit("}", 1)[-1]
+                    if event == "start":
+                        open_elements.append(element)
+                        if sheet and tag == "row":
+                            cells_in_row, rows = 0, rows + 1
+                            ref = element.get("r") or ""
+                            number = max(rows, int(ref)) if ref.isdigit() else rows
+                            if number > MAX_ROWS + 1:
+                                raise _too_many_rows(number)
+                        elif sheet and tag == "c":
+                            cells_in_row += 1
+                            column = _column_number(element.get("r", ""))
+                            if cells_in_row > MAX_COLUMNS or column > MAX_COLUMNS:
+                                raise ValueError(f"a row of the sheet {name} has cells beyond column "
+                                                 f"{MAX_COLUMNS}: a schedule has at most {MAX_COLUMNS} columns")
+                        continue
+                    if tag in ("v", "t") and element.text and len(element.text) > MAX_CELL_CHARS:
+                        raise ValueError(f"a cell of the workbook holds {len(element.text):,} characters: "
+                                         f"at most {MAX_CELL_CHARS:,} are allowed in one cell")
+                    open_elements.pop()
+                    if tag in ("c", "si", "row"):
+                        element.clear()
+                        if tag != "c" and open_elements:
+                            open_elements[-1].remove(element)  # keep memory flat over many rows
+        except ParseError as exc:
+            raise ValueError(f"the workbook part {name} is not well-formed XML ({exc})") from None
+        except (zipfile.BadZipFile, zlib.error, EOFError, OSError) as exc:
+            raise ValueError(f"the workbook part {name} is damaged ({exc.__class__.__name__}: {exc})") from None
 
 
 def read_xlsx(data: bytes) -> tuple[list[str], list[tuple[int, dict]]]:
     """(header, [(row number, {column: text})]) from the first sheet of an XLSX workbook.
 
-    ValueError when the bytes are not an XLSX workbook.
+    ValueError when the bytes are not an XLSX workbook, are beyond the limits of
+    :func:`check_xlsx_parts` (checked first), or cannot be read whole (a damaged part).
     """
-    import zipfile
-
     from openpyxl import load_workbook
 
+    check_xlsx_parts(data)
     try:
         workbook = load_workbook(io.BytesIO(data), read_only=True, data_only=True)
-    except (zipfile.BadZipFile, KeyError, OSError, ValueError) as exc:
-        raise ValueError(f"the file is not an XLSX workbook ({exc.__class__.__name__})") from None
+    except Exception as exc:  # noqa: BLE001 - any broken workbook is the file's problem, said so
+        raise ValueError(f"the file is not a readable XLSX workbook ({exc.__class__.__name__}: "
+                         f"{str(exc)[:200]})") from None
     try:
+        if not workbook.worksheets:
+            raise ValueError("the workbook has no sheet")
         sheet = workbook.worksheets[0]
         header: list[str] = []
         out = []
-        for number, cells in enumerate(sheet.iter_rows(values_only=True), start=1):
+        for number, cells in enumerate(sheet.iter_rows(values_only=True, max_col=MAX_COLUMNS), start=1):
+            if number > MAX_ROWS + 1:
+                raise _too_many_rows(number)
             texts = [_cell_text(c) for c in cells]
+            _check_cells(number, texts)
             if number == 1:
                 header = [t.strip() for t in texts]
                 while header and not header[-1]:
@@ -176,9 +288,12 @@ def read_xlsx(data: bytes) -> tuple[list[str], list[tuple[int, dict]]]:
             if any(texts[len(header):]):
                 row[""] = "x"
             out.append((number, row))
-            if len(out) > MAX_ROWS:
-                break
         return header, out
+    except ValueError:
+        raise
+    except Exception as exc:  # noqa: BLE001 - a damaged part met while reading (zlib.error, XML)
+        raise ValueError(f"the workbook cannot be read whole ({exc.__class__.__name__}: "
+                         f"{str(exc)[:200]})") from None
     finally:
         workbook.close()
 
