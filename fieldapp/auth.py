@@ -17,6 +17,7 @@ from wtforms import EmailField, PasswordField
 from wtforms.validators import DataRequired, Length
 
 from fieldapp import db
+from fieldapp.forms import ProjectForm
 from fieldapp.queries import audit, projects, users
 
 bp = Blueprint("auth", __name__)
@@ -225,6 +226,24 @@ def logout_everywhere():
     flash(f"Logged out on every device: {ended} session{'s' if ended != 1 else ''} ended. Saves "
           "waiting on a tablet stay on it until someone logs in there again.")
     return redirect(url_for("auth.login"))
+
+
+@bp.route("/projects/new", methods=["GET", "POST"])
+@admin_required
+def new_project():
+    """Create a project (admin only): name, site, datum and engineer of record; the default
+    rules become its version 1 (check them against the project's specification on Rules).
+    Audited as "project created", the first entry of the project's chain."""
+    form = ProjectForm()
+    if form.validate_on_submit():
+        conn = db.get_db()
+        with db.write(conn):
+            project_id = projects.add_project(conn, form.values(), g.user.label, g.user.id)
+        flash(f"Project {form.name.data.strip()} created (id {project_id}). Its rules are the defaults: "
+              "check them against the project's specification before recording.")
+        return redirect(url_for("auth.index"))
+    status = 400 if request.method == "POST" else 200
+    return render_template("project_new.html", form=form), status
 
 
 @bp.get("/")

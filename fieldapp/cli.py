@@ -147,6 +147,35 @@ def user_end_sessions(ctx, data_dir, email):
     click.echo(f"{ended} session{'s' if ended != 1 else ''} of {found.email} ended")
 
 
+@main.group()
+def project():
+    """Manage projects."""
+
+
+@project.command("add")
+@data_option
+@click.argument("name")
+@click.option("--site", required=True, help="Where the piles are (1 to 200 characters).")
+@click.option("--datum", default="", help="The datum levels are given to.")
+@click.option("--engineer", default="", help="The engineer of record.")
+@click.pass_context
+def project_add(ctx, data_dir, name, site, datum, engineer):
+    """Create a project NAME with the default rules as version 1; audited ("project created")."""
+    from fieldapp.queries import projects
+
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        conn = db.get_db()
+        try:
+            with db.write(conn):
+                project_id = projects.add_project(
+                    conn, {"name": name, "site": site, "datum": datum, "engineer": engineer}, "cli")
+        except projects.ProjectInvalid as exc:
+            raise click.ClickException("project not created: " + "; ".join(exc.errors.values())) from None
+    click.echo(f"project {project_id} {name.strip()!r} created; its rules are the defaults (version 1): "
+               "check them against the project's specification")
+
+
 @main.command("audit-head")
 @data_option
 @click.argument("project_id", type=int)

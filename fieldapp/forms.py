@@ -23,6 +23,7 @@ from design_core.inputs import MATERIALS, PILE_TYPES, PileDesign
 from fieldapp import text_rules
 from fieldapp.queries.caps import CAP_LOAD_LIMIT
 from fieldapp.queries.piles import FIELDS, LEVEL_LIMIT_M, MARK_MAX, check_pile, label_problem
+from fieldapp.queries.projects import check_project
 
 MATERIAL_LABELS = {
     "cohesive": "cohesive (clay: alpha method, needs c_u)",
@@ -484,6 +485,30 @@ for _f in dc_fields(Rules):
                                    unit=_meta.get("unit") or "")
     setattr(RulesForm, _f.name, _rule_field)
     RULE_NAMES.append(_f.name)
+
+
+# --- projects ------------------------------------------------------------------------------
+
+class ProjectForm(FlaskForm):
+    """A new project: name, site, datum for levels, engineer of record (checked by
+    queries.projects.check_project, the same checks as ``toeline project add``)."""
+
+    name = StringField("Name")
+    site = StringField("Site")
+    datum = StringField("Datum for levels")
+    engineer = StringField("Engineer of record")
+
+    def values(self) -> dict:
+        """The four fields as text."""
+        return {name: (getattr(self, name).data or "") for name in ("name", "site", "datum", "engineer")}
+
+    def validate(self, extra_validators=None):
+        """CSRF and the fields, each problem shown on its field."""
+        ok = super().validate(extra_validators)
+        for name, message in check_project(self.values()).items():
+            getattr(self, name).errors.append(message)
+            ok = False
+        return ok
 
 
 # --- import ------------------------------------------------------------------------------------
