@@ -564,3 +564,34 @@ def test_audit_records_failed_logins(app, auth, people):
     with app.app_context():
         entries = audit.entries(db.get_db(), None)
     assert any(e["action"] == "login failed" for e in entries)
+
+
+def test_every_write_without_a_csrf_token_is_refused(world, no_pdf_builds):
+    """Every route and method that is not a read, sent by a signed-in admin (who may do
+    everything) and by the anonymous visitor with a valid cookie but no CSRF token, in neither
+    the header nor the form: 400 (anonymous API writes: 401 before the token is looked at), and
+    the database unchanged."""
+    app, data = world["app"], world["data"]
+    door = Door(app)
+    failures, tried = [], 0
+    for rule, method in _routes(app):
+        if method == "GET":
+            continue
+        url = _url(app, rule, world["objects"][world["own"]])
+        for role in ("admin", "engineer", "anonymous"):
+            client = door.clients[role]
+            before = _fingerprint(data)
+            if url.startswith("/api/"):
+                response = client.open(url, method=method, json={"client_id": str(uuid.uuid4()),
+                                                                  "record": {"progress": "boring"}})
+            else:
+                response = client.open(url, method=method, data={"email": LOGINS["admin"][0],
+                                                                 "password": LOGINS["admin"][1]})
+            tried += 1
+            expected = {401} if role == "anonymous" and url.startswith("/api/") else {400}
+            if response.status_code not in expected:
+                failures.append(f"{role} {method} {url} without a CSRF token: {response.status_code}")
+            elif _fingerprint(data) != before:
+                failures.append(f"{role} {method} {url} without a CSRF token: refused but the database changed")
+    assert failures == [], "\n".join(failures)
+    assert tried >= 30
