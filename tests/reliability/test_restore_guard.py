@@ -80,3 +80,13 @@ def test_restore_of_a_good_backup_passes_its_checks(demo_data, tmp_path):
     conn = sqlite3.connect(str(tmp_path / "fresh" / DB_NAME))
     assert conn.execute("SELECT COUNT(*) FROM pile_records").fetchone()[0] > 0
     conn.close()
+
+
+def test_the_demo_command_is_refused_on_a_folder_a_server_holds(demo_data):
+    server = Server(demo_data)
+    server.start()
+    try:
+        result = CliRunner().invoke(main, ["--data", str(demo_data), "demo", "--no-serve"])
+        assert result.exit_code != 0 and "in use by pid" in result.output, result.output
+    finally:
+        server.stop()
