@@ -11,6 +11,7 @@ import sys
 import click
 
 from fieldapp import create_app, datalock, db
+from fieldapp.queries import audit, projects, users
 
 DEFAULT_DATA = "toeline-data"
 
@@ -102,8 +103,6 @@ def user():
 @click.pass_context
 def user_add(ctx, data_dir, email, role, name, project_ids, password_stdin):
     """Add a user with a role, optionally to projects."""
-    from fieldapp.queries import audit, projects, users
-
     if password_stdin:
         password = sys.stdin.readline().rstrip("\r\n")
     else:
@@ -133,8 +132,6 @@ def user_end_sessions(ctx, data_dir, email):
 
     Records already saved stay saved. A tablet whose session ended keeps its unsent saves in
     its outbox; they are sent once someone signs in on it again."""
-    from fieldapp.queries import audit, users
-
     app = _app(ctx, data_dir)
     with app.app_context():
         conn = db.get_db()
@@ -161,8 +158,6 @@ def project():
 @click.pass_context
 def project_add(ctx, data_dir, name, site, datum, engineer):
     """Create a project NAME with the default rules as version 1; audited ("project created")."""
-    from fieldapp.queries import projects
-
     app = _app(ctx, data_dir)
     with app.app_context():
         conn = db.get_db()
@@ -184,8 +179,6 @@ def audit_head(ctx, data_dir, project_id):
     """Print the head (SEQ:HASH) of PROJECT_ID's audit chain, for an engineer to keep outside the
     data folder; ``toeline verify-audit PROJECT_ID --head SEQ:HASH`` later proves the chain still
     holds it (nothing deleted from its end, nothing renumbered or rehashed)."""
-    from fieldapp.queries import audit, projects
-
     app = _app(ctx, data_dir)
     with app.app_context():
         conn = db.get_db()
@@ -235,8 +228,6 @@ def photos_prune(ctx, data_dir, older_than_hours, dry_run):
 def demo(ctx, data_dir, host, port, no_serve):
     """Create the demo project in an empty data folder, print the logins, and serve."""
     from fieldapp import demo as demo_data
-    from fieldapp.queries import projects
-
     _hold_folder(ctx, data_dir, "serve the demo")
     app = _app(ctx, data_dir)
     with app.app_context():

@@ -15,8 +15,12 @@ a project that does not exist or a ``--head`` that cannot be read.
 from __future__ import annotations
 
 import re
+from pathlib import Path
 
 import click
+
+from fieldapp import backup, db
+from fieldapp.queries import audit, projects
 
 HEAD_RE = re.compile(r"^(\d{1,18}):([0-9a-f]{64})$")
 
@@ -34,11 +38,6 @@ def register(main: click.Group) -> None:
     def verify_audit(ctx, data_dir, project_id, kept_heads):
         """Verify the audit chain of one project (or every chain), the rows it vouches for and
         every anchor known."""
-        from pathlib import Path
-
-        from fieldapp import backup, db
-        from fieldapp.queries import audit, projects
-
         kept = []
         for text in kept_heads:
             match = HEAD_RE.match(text.strip().lower())
@@ -75,8 +74,6 @@ def register(main: click.Group) -> None:
 
 def _report_chain(conn, chain, anchors, photo_file) -> bool:
     """Print what was checked for one chain; True when anything is wrong."""
-    from fieldapp.queries import audit
-
     name = f"project {chain}" if chain is not None else "site-wide chain"
     report = audit.verify_chain(conn, chain)
     wrong = False

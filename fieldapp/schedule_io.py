@@ -21,9 +21,11 @@ import csv
 import hashlib
 import io
 import re
+import zipfile
 import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
+from xml.etree.ElementTree import ParseError, iterparse
 
 from fieldapp import text_rules
 from fieldapp.queries import audit, caps, ground, piles, projects
@@ -194,9 +196,6 @@ def check_xlsx_parts(data: bytes) -> None:
     string) longer than MAX_CELL_CHARS. The XML is read as a stream, element by element, so a
     hostile file costs no more memory than its largest allowed cell. ValueError naming the
     problem."""
-    import zipfile
-    from xml.etree.ElementTree import ParseError, iterparse
-
     try:
         archive = zipfile.ZipFile(io.BytesIO(data))
         parts = archive.infolist()

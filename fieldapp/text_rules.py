@@ -93,6 +93,29 @@ def mark_problem(label: str, value: str) -> str | None:
     return None
 
 
+def invalid_text_in(data, where: str = "") -> tuple[str, str] | None:
+    """(field path, message) for the first text in a decoded JSON value (dicts, lists, strings;
+    keys included) that is not valid Unicode or holds a control character other than a line
+    break or tab, else None. For a request body, before anything is stored: the field path
+    ("record.strata[2].description") goes into the 422 answer."""
+    stack = [(where, data)]
+    while stack:
+        path, value = stack.pop()
+        if isinstance(value, str):
+            problem = text_problem(path or "text", value)
+            if problem:
+                return path or "text", problem
+        elif isinstance(value, dict):
+            for key, item in value.items():
+                name = f"{path}.{key}" if path else str(key)
+                if isinstance(key, str) and text_problem("a field name", key):
+                    return name, text_problem("a field name", key)
+                stack.append((name, item))
+        elif isinstance(value, list):
+            stack.extend((f"{path}[{i}]", item) for i, item in enumerate(value))
+    return None
+
+
 # Characters an XLSX file (XML 1.0) cannot hold, and lone surrogates (not UTF-8).
 _UNWRITABLE = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff]")
 
