@@ -543,6 +543,10 @@ def register(main) -> None:
         with app.app_context():
             conn = db.get_db()
             _project(conn, project_id)
+            size = Path(file).stat().st_size
+            if size > MAX_BYTES:  # refused before it is read into memory
+                raise click.ClickException(f"Nothing imported: {file} is {size / 1_048_576:,.1f} MB, larger "
+                                           f"than {MAX_BYTES // (1024 * 1024)} MB")
             result = import_schedule(conn, project_id, Path(file).read_bytes(), file, "cli")
         if not result.ok:
             for error in result.errors:

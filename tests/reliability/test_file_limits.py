@@ -188,3 +188,28 @@ def test_other_broken_files_are_clear_errors(site, name, data, words):
     elif data == "notxml":
         data = _workbook_with_sheet(lambda s: s.write(b"<worksheet><sheetData><row>"))
     _refused(site, data, name, *words)
+
+
+def test_the_import_command_refuses_a_big_file_before_reading_it(demo_data, tmp_path):
+    from click.testing import CliRunner
+
+    from fieldapp.cli import main
+
+    big = tmp_path / "big.csv"
+    with open(big, "wb") as fh:
+        fh.truncate(schedule_io.MAX_BYTES + 1)  # sparse: nothing to read, only its size
+    result = CliRunner().invoke(main, ["--data", str(demo_data), "import", "1", str(big)])
+    assert result.exit_code != 0 and "larger than 10 MB" in result.output, result.output
+
+
+def test_the_import_command_reports_a_bomb_clearly(demo_data, tmp_path):
+    from click.testing import CliRunner
+
+    from fieldapp.cli import main
+
+    def sheet(stream):
+        stream.write(f"<worksheet {NS}><sheetData>".encode() + b"<row/>" * 1_000_000 + b"</sheetData></worksheet>")
+    path = tmp_path / "bomb.xlsx"
+    path.write_bytes(_workbook_with_sheet(sheet))
+    result = CliRunner().invoke(main, ["--data", str(demo_data), "import", "1", str(path)])
+    assert result.exit_code != 0 and "more than 20,000 rows" in result.output, result.output
