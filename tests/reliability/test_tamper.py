@@ -353,3 +353,15 @@ def test_backup_with_a_replaced_photo_is_refused(backup, tmp_path):
     manifest["files"][original.relative_to(backup).as_posix()] = sha256_file(original)
     (backup / MANIFEST).write_text(json.dumps(manifest))
     _refused(backup, tmp_path / "t", "does not match its SHA-256")
+
+
+def test_the_record_command_says_when_rows_no_longer_match(signed, tmp_path):
+    data, _ = signed
+    good = CliRunner().invoke(main, ["--data", str(data), "record", str(PROJECT), str(tmp_path / "a.pdf")])
+    assert good.exit_code == 0 and "row(s) match their entries" in good.output and "ALTERED" not in good.output
+    conn = _raw(data)
+    conn.execute("UPDATE signoffs SET reasons = 'edited in the file'")
+    conn.commit()
+    conn.close()
+    bad = CliRunner().invoke(main, ["--data", str(data), "record", str(PROJECT), str(tmp_path / "b.pdf")])
+    assert "1 ALTERED or missing" in bad.output, bad.output
