@@ -82,10 +82,14 @@ def make_backup(data_dir: Path, dest: Path) -> dict:
     }
     text = json.dumps(manifest, indent=1, sort_keys=True)
     (dest / MANIFEST).write_text(text)
+    # The heads only (not the file list, which grows with the photos), and which manifest they
+    # came from, kept in the data folder as anchors for verify-audit.
     anchors = data_dir / ANCHOR_DIR
     anchors.mkdir(exist_ok=True)
     stamp = datetime.now(timezone.utc).strftime("%Y%m%dT%H%M%S%f")
-    (anchors / f"backup-{stamp}.json").write_text(text)
+    (anchors / f"backup-{stamp}.json").write_text(json.dumps({
+        "made_at": manifest["made_at"], "backup": str(dest.resolve()), "audit_heads": heads,
+        "manifest_sha256": hashlib.sha256(text.encode("utf-8")).hexdigest()}, indent=1, sort_keys=True))
     return manifest
 
 
