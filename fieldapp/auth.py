@@ -8,6 +8,7 @@ never learns that another project's id exists.
 from __future__ import annotations
 
 import functools
+from urllib.parse import quote, unquote
 
 from flask import (Blueprint, abort, current_app, flash, g, jsonify, redirect, render_template, request,
                    session, url_for)
@@ -16,6 +17,7 @@ from wtforms import EmailField, PasswordField
 from wtforms.validators import DataRequired, Length
 
 from fieldapp import db
+from fieldapp.forms import ProjectForm
 from fieldapp.queries import audit, projects, users
 
 bp = Blueprint("auth", __name__)
@@ -110,6 +112,29 @@ def admin_required(view):
     return wrapped
 
 
+# What a path and query may hold unescaped (RFC 3986 pchar, "/" and "?"); anything else is
+# percent-escaped before the checks, so no raw control character, space or backslash remains.
+_PATH_SAFE = "/?-._~!$&'()*+,;=:@%"
+
+
+def safe_next(target) -> str | None:
+    """``target`` (escaped) when it is a same-site relative path to follow after sign-in, else None.
+
+    Refused: anything not starting with one "/" ("//evil", "https://...", "javascript:"),
+    backslashes ("/\\evil", which browsers read as "//evil"), control characters (browsers drop
+    a tab or line break, so "/\t/evil" becomes "//evil"; a line break in a Location header is a
+    500), and the same again once percent-escapes are decoded ("/%2F/evil"). A letter outside
+    ASCII (a pile mark "Pé") is kept, percent-escaped.
+    """
+    if not isinstance(target, str) or not target.startswith("/"):
+        return None
+    decoded = unquote(target)
+    for text in (target, decoded):
+        if text.startswith(("//", "/\\")) or any(ch < " " or ch == "\x7f" or ch == "\\" for ch in text):
+            return None
+    return quote(target, safe=_PATH_SAFE)
+
+
 def project_or_404(project_id: int) -> projects.Project:
     """The project when the signed-in user may see it (member, or admin); 404 otherwise."""
     conn = db.get_db()
@@ -123,7 +148,18 @@ def project_or_404(project_id: int) -> projects.Project:
 
 @bp.route("/login", methods=["GET", "POST"])
 def login():
-    """Sign in with email and password; repeated failures are slowed down (429)."""
+    """Sign in with email and password; repeated failures are slowed down (429).
+
+    Two limits within LOGIN_WINDOW_S: LOGIN_MAX_FAILURES wrong passwords for one email lock that
+    email (even the right password waits), and LOGIN_MAX_FAILURES_PER_IP failures from one
+    address, for any email, lock that address, with one exception: the right password of a
+    user who has signed in successfully from this address before passes the address limit.
+    A site office shares one address, so without the exception one person's (or one broken
+    tablet's) failures would lock out every engineer there; the exception gives a guesser
+    nothing, because the per-email limit still holds for everyone and an address that never
+    signed this user in stays locked. Only a known address costs a password check past the
+    limit (no hashing work for an address that is locked out).
+    """
     form = LoginForm()
     if form.validate_on_submit():
         conn = db.get_db()
@@ -134,29 +170,35 @@ def login():
         if users.recent_failures(conn, email, window) >= max_failures:
             flash(f"Too many failed logins for this email: wait {window // 60} minutes and try again.")
             return render_template("login.html", form=form), 429
-        if users.recent_failures_from(conn, ip, window) >= current_app.config["LOGIN_MAX_FAILURES_PER_IP"]:
-            flash(f"Too many failed logins from this device's network: wait {window // 60} minutes "
-                  "and try again.")
-            return render_template("login.html", form=form), 429
+        address_locked = (users.recent_failures_from(conn, ip, window)
+                          >= current_app.config["LOGIN_MAX_FAILURES_PER_IP"])
+        if address_locked and not users.known_address(conn, email, ip):
+            return _address_locked(form, window)
         user = users.authenticate(conn, email, form.password.data)
         if user is None:
             with db.write(conn):
                 users.record_login_failure(conn, email, ip)
                 audit.append(conn, None, email, "login failed", email, {"ip": ip})
+            if address_locked:
+                return _address_locked(form, window)
             flash("Email or password is wrong.")
             return render_template("login.html", form=form), 401
         with db.write(conn):
             users.clear_failures(conn, email)
+            users.remember_address(conn, user.id, ip)
             token = users.start_session(conn, user.id)
         session.clear()  # a new session at every login
         session["sid"] = token
         session.permanent = True
-        target = request.args.get("next") or ""
-        if not target.startswith("/") or target.startswith("//"):
-            target = url_for("auth.index")
-        return redirect(target)
+        return redirect(safe_next(request.args.get("next")) or url_for("auth.index"))
     status = 400 if request.method == "POST" else 200
     return render_template("login.html", form=form), status
+
+
+def _address_locked(form, window: int):
+    flash(f"Too many failed logins from this device's network: wait {window // 60} minutes and try "
+          "again (someone who has signed in from here before may sign in with their password).")
+    return render_template("login.html", form=form), 429
 
 
 @bp.post("/logout")
@@ -184,6 +226,24 @@ def logout_everywhere():
     flash(f"Logged out on every device: {ended} session{'s' if ended != 1 else ''} ended. Saves "
           "waiting on a tablet stay on it until someone logs in there again.")
     return redirect(url_for("auth.login"))
+
+
+@bp.route("/projects/new", methods=["GET", "POST"])
+@admin_required
+def new_project():
+    """Create a project (admin only): name, site, datum and engineer of record; the default
+    rules become its version 1 (check them against the project's specification on Rules).
+    Audited as "project created", the first entry of the project's chain."""
+    form = ProjectForm()
+    if form.validate_on_submit():
+        conn = db.get_db()
+        with db.write(conn):
+            project_id = projects.add_project(conn, form.values(), g.user.label, g.user.id)
+        flash(f"Project {form.name.data.strip()} created (id {project_id}). Its rules are the defaults: "
+              "check them against the project's specification before recording.")
+        return redirect(url_for("auth.index"))
+    status = 400 if request.method == "POST" else 200
+    return render_template("project_new.html", form=form), status
 
 
 @bp.get("/")

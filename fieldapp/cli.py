@@ -10,7 +10,8 @@ import sys
 
 import click
 
-from fieldapp import create_app, db
+from fieldapp import create_app, datalock, db
+from fieldapp.queries import audit, projects, users
 
 DEFAULT_DATA = "toeline-data"
 
@@ -24,6 +25,15 @@ def data_option(f):
 def _app(ctx: click.Context, data_dir: str | None):
     folder = data_dir or ctx.obj["data"]
     return create_app(data_dir=folder)
+
+
+def _hold_folder(ctx: click.Context, data_dir: str | None, doing: str) -> None:
+    """Take the data folder's lock for this process's life (fieldapp.datalock): a restore is
+    refused while it is held, and a second server on the same folder cannot start."""
+    try:
+        datalock.acquire(data_dir or ctx.obj["data"], doing)
+    except datalock.FolderInUse as exc:
+        raise click.ClickException(str(exc)) from None
 
 
 @click.group()
@@ -58,7 +68,10 @@ def init(ctx, data_dir):
               help="With --https: an extra host name or address for the certificate (repeatable).")
 @click.pass_context
 def serve(ctx, data_dir, host, port, threads, use_https, names):
-    """Serve the app with waitress (the production WSGI server), or over HTTPS with --https."""
+    """Serve the app with waitress (the production WSGI server), or over HTTPS with --https.
+
+    Holds the data folder's lock while it runs, so ``toeline restore`` refuses meanwhile."""
+    _hold_folder(ctx, data_dir, "serve")
     app = _app(ctx, data_dir)
     if use_https:
         from fieldapp import https
@@ -90,8 +103,6 @@ def user():
 @click.pass_context
 def user_add(ctx, data_dir, email, role, name, project_ids, password_stdin):
     """Add a user with a role, optionally to projects."""
-    from fieldapp.queries import audit, projects, users
-
     if password_stdin:
         password = sys.stdin.readline().rstrip("\r\n")
     else:
@@ -121,8 +132,6 @@ def user_end_sessions(ctx, data_dir, email):
 
     Records already saved stay saved. A tablet whose session ended keeps its unsent saves in
     its outbox; they are sent once someone signs in on it again."""
-    from fieldapp.queries import audit, users
-
     app = _app(ctx, data_dir)
     with app.app_context():
         conn = db.get_db()
@@ -133,6 +142,54 @@ def user_end_sessions(ctx, data_dir, email):
             ended = users.end_sessions(conn, found.id)
             audit.append(conn, None, "cli", "sessions ended", found.email, {"sessions": ended})
     click.echo(f"{ended} session{'s' if ended != 1 else ''} of {found.email} ended")
+
+
+@main.group()
+def project():
+    """Manage projects."""
+
+
+@project.command("add")
+@data_option
+@click.argument("name")
+@click.option("--site", required=True, help="Where the piles are (1 to 200 characters).")
+@click.option("--datum", default="", help="The datum levels are given to.")
+@click.option("--engineer", default="", help="The engineer of record.")
+@click.pass_context
+def project_add(ctx, data_dir, name, site, datum, engineer):
+    """Create a project NAME with the default rules as version 1; audited ("project created")."""
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        conn = db.get_db()
+        try:
+            with db.write(conn):
+                project_id = projects.add_project(
+                    conn, {"name": name, "site": site, "datum": datum, "engineer": engineer}, "cli")
+        except projects.ProjectInvalid as exc:
+            raise click.ClickException("project not created: " + "; ".join(exc.errors.values())) from None
+    click.echo(f"project {project_id} {name.strip()!r} created; its rules are the defaults (version 1): "
+               "check them against the project's specification")
+
+
+@main.command("audit-head")
+@data_option
+@click.argument("project_id", type=int)
+@click.pass_context
+def audit_head(ctx, data_dir, project_id):
+    """Print the head (SEQ:HASH) of PROJECT_ID's audit chain, for an engineer to keep outside the
+    data folder; ``toeline verify-audit PROJECT_ID --head SEQ:HASH`` later proves the chain still
+    holds it (nothing deleted from its end, nothing renumbered or rehashed)."""
+    app = _app(ctx, data_dir)
+    with app.app_context():
+        conn = db.get_db()
+        project = projects.get(conn, project_id)
+        if project is None:
+            raise click.ClickException(f"project {project_id} does not exist")
+        seq, digest = audit.head(conn, project_id)
+        at = audit.now_iso()
+    click.echo(f"{seq}:{digest}")
+    click.echo(f"head of the audit chain of project {project_id} ({project.name}) at {at}; keep it, "
+               f"then check with: toeline verify-audit {project_id} --head {seq}:{digest}", err=True)
 
 
 @main.group()
@@ -171,8 +228,7 @@ def photos_prune(ctx, data_dir, older_than_hours, dry_run):
 def demo(ctx, data_dir, host, port, no_serve):
     """Create the demo project in an empty data folder, print the logins, and serve."""
     from fieldapp import demo as demo_data
-    from fieldapp.queries import projects
-
+    _hold_folder(ctx, data_dir, "serve the demo")
     app = _app(ctx, data_dir)
     with app.app_context():
         conn = db.get_db()

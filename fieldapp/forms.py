@@ -20,8 +20,10 @@ from wtforms.widgets import NumberInput
 
 from design_core import Rules
 from design_core.inputs import MATERIALS, PILE_TYPES, PileDesign
+from fieldapp import text_rules
 from fieldapp.queries.caps import CAP_LOAD_LIMIT
 from fieldapp.queries.piles import FIELDS, LEVEL_LIMIT_M, MARK_MAX, check_pile, label_problem
+from fieldapp.queries.projects import check_project
 
 MATERIAL_LABELS = {
     "cohesive": "cohesive (clay: alpha method, needs c_u)",
@@ -136,6 +138,22 @@ def not_formula(form, field):
         raise ValidationError(problem)
 
 
+def text_rule(check):
+    """A WTForms validator from one of fieldapp.text_rules' checks (label, text) -> message."""
+    def validator(form, field):
+        if isinstance(field.data, str):
+            problem = check(field.label.text, field.data.strip())
+            if problem:
+                raise ValidationError(problem)
+    return validator
+
+
+MARK_RULE = text_rule(text_rules.mark_problem)
+CODE_RULE = text_rule(text_rules.code_problem)
+NAME_RULE = text_rule(text_rules.name_problem)
+TEXT_RULE = text_rule(text_rules.text_problem)
+
+
 def _blank_to_none(value):
     return value.strip() if isinstance(value, str) and value.strip() else None
 
@@ -148,7 +166,7 @@ class PileForm(FlaskForm):
 
     mark = StringField("Mark", [DataRequired(message=f"Mark is required (1 to {MARK_MAX} characters)"),
                                 Length(max=MARK_MAX, message=f"Mark must be 1 to {MARK_MAX} characters"),
-                                not_formula])
+                                not_formula, MARK_RULE])
     cap_id = ChoiceField("Cap", coerce=str, validate_choice=True)
     ground_model_id = ChoiceField("Ground model", coerce=str)
 
@@ -216,7 +234,8 @@ class CapForm(FlaskForm):
     """A cap: mark and loads at the centroid of its piles."""
 
     mark = StringField("Cap mark", [DataRequired(message="Cap mark is required (1 to 40 characters)"),
-                                    Length(max=40, message="Cap mark must be 1 to 40 characters"), not_formula])
+                                    Length(max=40, message="Cap mark must be 1 to 40 characters"), not_formula,
+                                    CODE_RULE])
     n_kn = MeasureField("N (vertical, compression +)", lo=-CAP_LOAD_LIMIT, hi=CAP_LOAD_LIMIT, unit="kN",
                         required=False, default=0.0)
     mx_knm = MeasureField("Mx (adds compression towards +northing)", lo=-CAP_LOAD_LIMIT, hi=CAP_LOAD_LIMIT,
@@ -258,7 +277,8 @@ class LayerForm(Form):
     phi_deg = MeasureField("φ'", lo=0, hi=50, unit="°", required=False)
     shaft_friction_kpa = MeasureField("Report shaft friction", lo=0, hi=5000, unit="kPa", required=False)
     base_pressure_kpa = MeasureField("Report base pressure", lo=0, hi=100_000, unit="kPa", required=False)
-    description = StringField("Description", [Length(max=200, message="Description must be at most 200 characters")])
+    description = StringField("Description", [Length(max=200, message="Description must be at most 200 characters"),
+                                              NAME_RULE])
 
     def is_blank(self) -> bool:
         """True when nothing was entered in the row."""
@@ -278,8 +298,10 @@ class GroundModelForm(FlaskForm):
     """A ground model: name, water level and layers from the top down."""
 
     name = StringField("Name", [DataRequired(message="Name is required (1 to 80 characters)"),
-                                Length(max=80, message="Name must be 1 to 80 characters"), not_formula])
-    description = TextAreaField("Description", [Length(max=1000, message="Description must be at most 1,000 characters")])
+                                Length(max=80, message="Name must be 1 to 80 characters"), not_formula,
+                                NAME_RULE])
+    description = TextAreaField("Description", [Length(max=1000, message="Description must be at most 1,000 characters"),
+                                                TEXT_RULE])
     water_level_m = MeasureField("Groundwater level", lo=-LEVEL_LIMIT_M, hi=LEVEL_LIMIT_M, unit="m")
     layers = FieldList(FormField(LayerForm), min_entries=1, max_entries=30)
 
@@ -370,10 +392,11 @@ class GroundModelForm(FlaskForm):
 class ExposureRowForm(Form):
     """One row of the exposure table; a wholly blank row is ignored."""
 
-    code = StringField("Class", [Length(max=12, message="Class must be 1 to 12 characters")])
+    code = StringField("Class", [Length(max=12, message="Class must be 1 to 12 characters"), CODE_RULE])
     cmin_dur_mm = MeasureField("Minimum cover for durability", lo=0, hi=200, unit="mm", required=False)
     min_strength_mpa = MeasureField("Minimum concrete strength", lo=0, hi=120, unit="MPa", required=False)
-    description = StringField("Description", [Length(max=200, message="Description must be at most 200 characters")])
+    description = StringField("Description", [Length(max=200, message="Description must be at most 200 characters"),
+                                              NAME_RULE])
 
     def is_blank(self) -> bool:
         """True when nothing was entered in the row."""
@@ -387,7 +410,7 @@ class RulesForm(FlaskForm):
 
     note = StringField("Why the change (kept with the new version)",
                        [DataRequired(message="Why the change is required (1 to 300 characters)"),
-                        Length(max=300, message="Why the change must be at most 300 characters")])
+                        Length(max=300, message="Why the change must be at most 300 characters"), NAME_RULE])
     exposure = FieldList(FormField(ExposureRowForm), min_entries=1, max_entries=60)
 
     def rule_fields(self):
@@ -462,6 +485,30 @@ for _f in dc_fields(Rules):
                                    unit=_meta.get("unit") or "")
     setattr(RulesForm, _f.name, _rule_field)
     RULE_NAMES.append(_f.name)
+
+
+# --- projects ------------------------------------------------------------------------------
+
+class ProjectForm(FlaskForm):
+    """A new project: name, site, datum for levels, engineer of record (checked by
+    queries.projects.check_project, the same checks as ``toeline project add``)."""
+
+    name = StringField("Name")
+    site = StringField("Site")
+    datum = StringField("Datum for levels")
+    engineer = StringField("Engineer of record")
+
+    def values(self) -> dict:
+        """The four fields as text."""
+        return {name: (getattr(self, name).data or "") for name in ("name", "site", "datum", "engineer")}
+
+    def validate(self, extra_validators=None):
+        """CSRF and the fields, each problem shown on its field."""
+        ok = super().validate(extra_validators)
+        for name, message in check_project(self.values()).items():
+            getattr(self, name).errors.append(message)
+            ok = False
+        return ok
 
 
 # --- import ------------------------------------------------------------------------------------

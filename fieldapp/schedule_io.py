@@ -20,9 +20,14 @@ from __future__ import annotations
 import csv
 import hashlib
 import io
+import re
+import zipfile
+import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
+from xml.etree.ElementTree import ParseError, iterparse
 
+from fieldapp import text_rules
 from fieldapp.queries import audit, caps, ground, piles, projects
 from fieldapp.queries.piles import (FIELD_BY_NAME, FIELDS, MARK_MAX, check_in_ground, check_pile, check_value,
                                     label_problem)
@@ -57,6 +62,13 @@ COLUMN_DOC = {
 }
 MAX_ROWS = 20_000
 MAX_BYTES = 10 * 1024 * 1024
+# Limits of what a schedule file may hold, checked before it is read whole: rows (blank ones
+# included), columns, characters in one cell, and for XLSX (a zip of XML files) the size of
+# its parts once decompressed. A small file can decompress to gigabytes (a "zip bomb").
+MAX_COLUMNS = 64
+MAX_CELL_CHARS = 2_000
+MAX_XLSX_UNCOMPRESSED = 64 * 1024 * 1024
+MAX_XLSX_PARTS = 2_000
 
 
 @dataclass(frozen=True)
@@ -112,10 +124,25 @@ def _cell_text(value) -> str:
     return str(value).strip()
 
 
+def _too_many_rows(number: int) -> ValueError:
+    return ValueError(f"the file holds more than {MAX_ROWS:,} rows (row {number:,} reached, blank rows "
+                      "included): split it, or delete the rows below the schedule")
+
+
+def _check_cells(number: int, cells) -> None:
+    if len(cells) > MAX_COLUMNS and any(str(c).strip() for c in cells[MAX_COLUMNS:]):
+        raise ValueError(f"row {number:,} has {len(cells):,} cells: a schedule has at most {MAX_COLUMNS} columns")
+    for i, cell in enumerate(cells[:MAX_COLUMNS], start=1):
+        if isinstance(cell, str) and len(cell) > MAX_CELL_CHARS:
+            raise ValueError(f"row {number:,}, cell {i} holds {len(cell):,} characters: at most "
+                             f"{MAX_CELL_CHARS:,} are allowed in one cell")
+
+
 def read_csv(data: bytes) -> tuple[list[str], list[tuple[int, dict]]]:
     """(header, [(row number, {column: text})]) from CSV bytes (UTF-8, comma, semicolon or tab).
 
-    ValueError when the bytes are not UTF-8 text.
+    ValueError when the bytes are not UTF-8 text, or the file is beyond MAX_ROWS (blank rows
+    included), MAX_COLUMNS or MAX_CELL_CHARS, or is not CSV the reader can parse.
     """
     try:
         text = data.decode("utf-8-sig")
@@ -128,42 +155,127 @@ def read_csv(data: bytes) -> tuple[list[str], list[tuple[int, dict]]]:
     except csv.Error:
         delimiter = ","
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
-    rows = list(reader)
-    if not rows:
-        return [], []
-    header = [h.strip() for h in rows[0]]
-    while header and not header[-1]:
-        header.pop()
+    header: list[str] = []
     out = []
-    for number, cells in enumerate(rows[1:], start=2):
-        if not any(c.strip() for c in cells):
-            continue
-        row = {h: (cells[i].strip() if i < len(cells) else "") for i, h in enumerate(header)}
-        if any(c.strip() for c in cells[len(header):]):
-            row[""] = "x"
-        out.append((number, row))
+    try:
+        for number, cells in enumerate(reader, start=1):
+            if number > MAX_ROWS + 1:
+                raise _too_many_rows(number)
+            _check_cells(number, cells)
+            if number == 1:
+                header = [h.strip() for h in cells]
+                while header and not header[-1]:
+                    header.pop()
+                continue
+            if not any(c.strip() for c in cells):
+                continue
+            row = {h: (cells[i].strip() if i < len(cells) else "") for i, h in enumerate(header)}
+            if any(c.strip() for c in cells[len(header):]):
+                row[""] = "x"
+            out.append((number, row))
+    except csv.Error as exc:
+        raise ValueError(f"the file cannot be read as CSV (line {reader.line_num:,}: {exc})") from None
     return header, out
+
+
+_COLUMN_LETTERS = re.compile(r"[A-Z]+")
+
+
+def _column_number(ref: str) -> int:
+    match = _COLUMN_LETTERS.match(ref or "")
+    number = 0
+    for letter in match.group() if match else "":
+        number = number * 26 + ord(letter) - 64
+    return number
+
+
+def check_xlsx_parts(data: bytes) -> None:
+    """Refuse an XLSX file before openpyxl opens it when it is not a zip, has too many parts,
+    decompresses beyond MAX_XLSX_UNCOMPRESSED, or a sheet holds more than MAX_ROWS rows (blank
+    ones included: the row numbers count), more than MAX_COLUMNS columns or a cell (or shared
+    string) longer than MAX_CELL_CHARS. The XML is read as a stream, element by element, so a
+    hostile file costs no more memory than its largest allowed cell. ValueError naming the
+    problem."""
+    try:
+        archive = zipfile.ZipFile(io.BytesIO(data))
+        parts = archive.infolist()
+    except (zipfile.BadZipFile, OSError, ValueError, EOFError) as exc:
+        raise ValueError(f"the file is not an XLSX workbook (not a readable zip: {exc})") from None
+    if len(parts) > MAX_XLSX_PARTS:
+        raise ValueError(f"the workbook has {len(parts):,} parts: at most {MAX_XLSX_PARTS:,} are allowed")
+    total = sum(p.file_size for p in parts)
+    if total > MAX_XLSX_UNCOMPRESSED:
+        raise ValueError(f"the workbook decompresses to {total / 1_048_576:,.0f} MB: at most "
+                         f"{MAX_XLSX_UNCOMPRESSED // 1_048_576} MB are allowed (a schedule of "
+                         f"{MAX_ROWS:,} piles needs far less)")
+    for part in parts:
+        name = part.filename
+        if not name.endswith(".xml") or not (name.startswith("xl/worksheets/") or name == "xl/sharedStrings.xml"):
+            continue
+        sheet = name.startswith("xl/worksheets/")
+        try:
+            with archive.open(part) as stream:
+                head = stream.peek(4096)[:4096] if hasattr(stream, "peek") else b""
+                if b"<!DOCTYPE" in head or b"<!ENTITY" in head:
+                    raise ValueError(f"the workbook part {name} declares XML entities: refused")
+                cells_in_row = rows = 0
+                open_elements = []
+                for event, element in iterparse(stream, events=("start", "end")):
+                    tag = element.tag.rsplit("}", 1)[-1]
+                    if event == "start":
+                        open_elements.append(element)
+                        if sheet and tag == "row":
+                            cells_in_row, rows = 0, rows + 1
+                            ref = element.get("r") or ""
+                            number = max(rows, int(ref)) if ref.isdigit() else rows
+                            if number > MAX_ROWS + 1:
+                                raise _too_many_rows(number)
+                        elif sheet and tag == "c":
+                            cells_in_row += 1
+                            column = _column_number(element.get("r", ""))
+                            if cells_in_row > MAX_COLUMNS or column > MAX_COLUMNS:
+                                raise ValueError(f"a row of the sheet {name} has cells beyond column "
+                                                 f"{MAX_COLUMNS}: a schedule has at most {MAX_COLUMNS} columns")
+                        continue
+                    if tag in ("v", "t") and element.text and len(element.text) > MAX_CELL_CHARS:
+                        raise ValueError(f"a cell of the workbook holds {len(element.text):,} characters: "
+                                         f"at most {MAX_CELL_CHARS:,} are allowed in one cell")
+                    open_elements.pop()
+                    if tag in ("c", "si", "row"):
+                        element.clear()
+                        if tag != "c" and open_elements:
+                            open_elements[-1].remove(element)  # keep memory flat over many rows
+        except ParseError as exc:
+            raise ValueError(f"the workbook part {name} is not well-formed XML ({exc})") from None
+        except (zipfile.BadZipFile, zlib.error, EOFError, OSError) as exc:
+            raise ValueError(f"the workbook part {name} is damaged ({exc.__class__.__name__}: {exc})") from None
 
 
 def read_xlsx(data: bytes) -> tuple[list[str], list[tuple[int, dict]]]:
     """(header, [(row number, {column: text})]) from the first sheet of an XLSX workbook.
 
-    ValueError when the bytes are not an XLSX workbook.
+    ValueError when the bytes are not an XLSX workbook, are beyond the limits of
+    :func:`check_xlsx_parts` (checked first), or cannot be read whole (a damaged part).
     """
-    import zipfile
-
     from openpyxl import load_workbook
 
+    check_xlsx_parts(data)
     try:
         workbook = load_workbook(io.BytesIO(data), read_only=True, data_only=True)
-    except (zipfile.BadZipFile, KeyError, OSError, ValueError) as exc:
-        raise ValueError(f"the file is not an XLSX workbook ({exc.__class__.__name__})") from None
+    except Exception as exc:  # noqa: BLE001 - any broken workbook is the file's problem, said so
+        raise ValueError(f"the file is not a readable XLSX workbook ({exc.__class__.__name__}: "
+                         f"{str(exc)[:200]})") from None
     try:
+        if not workbook.worksheets:
+            raise ValueError("the workbook has no sheet")
         sheet = workbook.worksheets[0]
         header: list[str] = []
         out = []
-        for number, cells in enumerate(sheet.iter_rows(values_only=True), start=1):
+        for number, cells in enumerate(sheet.iter_rows(values_only=True, max_col=MAX_COLUMNS), start=1):
+            if number > MAX_ROWS + 1:
+                raise _too_many_rows(number)
             texts = [_cell_text(c) for c in cells]
+            _check_cells(number, texts)
             if number == 1:
                 header = [t.strip() for t in texts]
                 while header and not header[-1]:
@@ -175,9 +287,12 @@ def read_xlsx(data: bytes) -> tuple[list[str], list[tuple[int, dict]]]:
             if any(texts[len(header):]):
                 row[""] = "x"
             out.append((number, row))
-            if len(out) > MAX_ROWS:
-                break
         return header, out
+    except ValueError:
+        raise
+    except Exception as exc:  # noqa: BLE001 - a damaged part met while reading (zlib.error, XML)
+        raise ValueError(f"the workbook cannot be read whole ({exc.__class__.__name__}: "
+                         f"{str(exc)[:200]})") from None
     finally:
         workbook.close()
 
@@ -228,25 +343,37 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
         row_errors: list[RowError] = []
         if "" in raw:
             row_errors.append(RowError(number, "", "the row has more cells than the header has columns"))
+        unreadable = {}
+        for column, text in raw.items():
+            problem = text_rules.name_problem(column or "cell", text) if column in COLUMNS else None
+            if problem:
+                unreadable[column] = problem
+                row_errors.append(RowError(number, column, problem))
         mark = raw.get("mark", "").strip()
-        if not mark:
+        if "mark" in unreadable:
+            pass
+        elif not mark:
             row_errors.append(RowError(number, "mark", f"mark is required (1 to {MARK_MAX} characters)"))
         elif len(mark) > MARK_MAX:
             row_errors.append(RowError(number, "mark", f"mark must be at most {MARK_MAX} characters"))
-        elif label_problem("mark", mark):
-            row_errors.append(RowError(number, "mark", label_problem("mark", mark)))
+        elif text_rules.mark_problem("mark", mark):
+            row_errors.append(RowError(number, "mark", text_rules.mark_problem("mark", mark)))
         elif mark in marks_at:
             row_errors.append(RowError(number, "mark", f"mark {mark} is also on row {marks_at[mark]}"))
         else:
             marks_at[mark] = number
         cap = raw.get("cap", "").strip()
-        if len(cap) > 40:
+        if "cap" in unreadable:
+            pass
+        elif len(cap) > 40:
             row_errors.append(RowError(number, "cap", "cap must be at most 40 characters"))
         elif label_problem("cap", cap):
             row_errors.append(RowError(number, "cap", label_problem("cap", cap)))
         model_name = raw.get("ground_model", "").strip()
         model_id = models.get(model_name)
-        if not model_name:
+        if "ground_model" in unreadable:
+            pass
+        elif not model_name:
             row_errors.append(RowError(number, "ground_model", "ground_model is required: the name of one "
                                        f"of the project's ground models ({', '.join(sorted(models)) or 'none yet'})"))
         elif model_id is None:
@@ -254,6 +381,9 @@ def check_rows(conn, project_id: int, header: list[str], rows: list[tuple[int, d
                                        f"project's ground models ({', '.join(sorted(models)) or 'none yet'})"))
         values = {"mark": mark, "cap": cap or None, "ground_model_id": model_id}
         for spec in FIELDS:
+            if spec.name in unreadable:
+                values[spec.name] = None
+                continue
             value, message = check_value(spec, raw.get(spec.name, ""))
             if message:
                 row_errors.append(RowError(number, spec.name, message))
@@ -343,12 +473,15 @@ def _text(value) -> str:
 
 
 def to_csv(rows: list[dict]) -> bytes:
-    """CSV bytes (UTF-8, comma, header row) of export rows; floats keep every digit."""
+    """CSV bytes (UTF-8, comma, header row) of export rows; floats keep every digit. A text cell
+    beginning like a formula (=, +, -, @, tab, CR: one stored before such text was refused)
+    gets a leading apostrophe, so a spreadsheet shows it as text (``text_rules.csv_cell``)."""
     buf = io.StringIO(newline="")
     writer = csv.writer(buf, lineterminator="\r\n")
     writer.writerow(COLUMNS)
     for row in rows:
-        writer.writerow([_text(row[c]) for c in COLUMNS])
+        writer.writerow([text_rules.csv_cell(_text(row[c])) if isinstance(row[c], str) else _text(row[c])
+                         for c in COLUMNS])
     return buf.getvalue().encode("utf-8")
 
 
@@ -363,7 +496,7 @@ def to_xlsx(rows: list[dict]) -> bytes:
     def cell(value):
         if not isinstance(value, str):
             return value
-        text = WriteOnlyCell(sheet, value=value)
+        text = WriteOnlyCell(sheet, value=text_rules.visible(value))
         text.data_type = "s"  # never a formula, whatever the text starts with
         return text
 
@@ -410,6 +543,10 @@ def register(main) -> None:
         with app.app_context():
             conn = db.get_db()
             _project(conn, project_id)
+            size = Path(file).stat().st_size
+            if size > MAX_BYTES:  # refused before it is read into memory
+                raise click.ClickException(f"Nothing imported: {file} is {size / 1_048_576:,.1f} MB, larger "
+                                           f"than {MAX_BYTES // (1024 * 1024)} MB")
             result = import_schedule(conn, project_id, Path(file).read_bytes(), file, "cli")
         if not result.ok:
             for error in result.errors:

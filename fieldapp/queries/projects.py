@@ -8,7 +8,37 @@ import sqlite3
 from dataclasses import dataclass
 
 from design_core import Rules
+from fieldapp import text_rules
+from fieldapp.queries import audit
 from fieldapp.queries.audit import now_iso
+
+# field -> (label, largest number of characters, required)
+PROJECT_FIELDS = {
+    "name": ("Name", 120, True),
+    "site": ("Site", 200, True),
+    "datum": ("Datum for levels", 120, False),
+    "engineer": ("Engineer of record", 120, False),
+}
+
+
+def check_project(values: dict) -> dict[str, str]:
+    """{field: message} for every problem with a new project's name, site, datum and engineer
+    (required, length, printable text, not starting like a spreadsheet formula)."""
+    errors = {}
+    for name, (label, longest, required) in PROJECT_FIELDS.items():
+        value = values.get(name)
+        text = value.strip() if isinstance(value, str) else ""
+        if not text:
+            if required:
+                errors[name] = f"{label} is required (1 to {longest} characters)"
+            continue
+        if len(text) > longest:
+            errors[name] = f"{label} must be at most {longest} characters, got {len(text)}"
+            continue
+        problem = text_rules.code_problem(label, text)
+        if problem:
+            errors[name] = problem
+    return errors
 
 
 @dataclass(frozen=True)
@@ -45,6 +75,28 @@ def create(conn: sqlite3.Connection, name: str, site: str = "", datum: str = "",
         (name, site, datum, engineer, now_iso()))
     project_id = cur.lastrowid
     save_rules(conn, project_id, rules or Rules(), "defaults", user_id)
+    return project_id
+
+
+class ProjectInvalid(ValueError):
+    """A new project's fields do not check out; ``errors`` is {field: message}."""
+
+    def __init__(self, errors: dict[str, str]):
+        super().__init__("; ".join(errors.values()))
+        self.errors = errors
+
+
+def add_project(conn: sqlite3.Connection, values: dict, actor: str, user_id: int | None = None) -> int:
+    """Create a project (with the default rules as version 1) and its audit entry "project
+    created", the first of its chain; returns its id. Run inside ``db.write``. ProjectInvalid
+    naming each field that does not check out."""
+    errors = check_project(values)
+    if errors:
+        raise ProjectInvalid(errors)
+    clean = {name: (values.get(name) or "").strip() for name in PROJECT_FIELDS}
+    project_id = create(conn, clean["name"], clean["site"], clean["datum"], clean["engineer"], user_id=user_id)
+    audit.append(conn, project_id, actor, "project created", clean["name"],
+                 {**clean, "rules_version": 1})
     return project_id
 
 

@@ -150,6 +150,21 @@ def clear_failures(conn: sqlite3.Connection, email: str) -> None:
     conn.execute("DELETE FROM login_failures WHERE email = ?", (email.strip().lower(),))
 
 
+def remember_address(conn: sqlite3.Connection, user_id: int, ip: str) -> None:
+    """Note that the user signed in successfully from this address. Run inside ``db.write``."""
+    now = time.time()
+    conn.execute("INSERT INTO login_addresses (user_id, ip, first_at, last_at) VALUES (?, ?, ?, ?) "
+                 "ON CONFLICT (user_id, ip) DO UPDATE SET last_at = excluded.last_at",
+                 (user_id, ip or "", now, now))
+
+
+def known_address(conn: sqlite3.Connection, email: str, ip: str) -> bool:
+    """True when the user with this email has signed in successfully from this address before."""
+    return conn.execute(
+        "SELECT 1 FROM login_addresses a JOIN users u ON u.id = a.user_id WHERE u.email = ? AND a.ip = ?",
+        (email.strip().lower(), ip or "")).fetchone() is not None
+
+
 _DUMMY_HASH = _hasher.hash("not a real password, used to even out timing")
 
 

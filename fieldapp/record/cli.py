@@ -54,6 +54,12 @@ def register(main: click.Group) -> None:
                 audit.append(conn, project_id, "cli", "record built", "record",
                              {"head_hash": result.head_hash, "pages": result.pages, "piles": result.piles,
                               "file": Path(out).name})
+            coverage = audit.verify_content(conn, project_id)
         click.echo(f"record of project {project_id}: {result.piles} piles, {result.pages} pages, "
                    f"{time.perf_counter() - started:.1f} s -> {result.path}")
         click.echo(f"audit head hash {result.head_hash} (chain {'intact' if result.chain_ok else 'BROKEN'})")
+        click.echo(f"content: {coverage.covered} row(s) match their entries"
+                   + (f"; {len(coverage.not_covered)} entries not covered (made before content hashes)"
+                      if coverage.not_covered else "")
+                   + (f"; {len(coverage.problems)} ALTERED or missing (run toeline verify-audit {project_id})"
+                      if coverage.problems else ""))

@@ -12,18 +12,9 @@ import io
 import sqlite3
 
 from fieldapp.record import data
+from fieldapp.text_rules import csv_cell as _safe
 
-FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 FORMATS = ("csv", "xlsx")
-
-
-def _safe(value):
-    """A cell value: numbers as they are, text defused against formula injection."""
-    if value is None:
-        return ""
-    if isinstance(value, str) and value.startswith(FORMULA_START):
-        return "'" + value
-    return value
 
 
 def to_csv(rows: list[data.ScheduleRow]) -> bytes:

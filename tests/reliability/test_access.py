@@ -47,6 +47,7 @@ EXPECT: dict[str, str | tuple[str, set[int]]] = {
     "auth.logout": ("public", {302}),  # signs out and sends to the login page
     "auth.logout_everywhere": ("signed", {302}),  # ends the caller's sessions, sends to the login
     "auth.index": "signed",
+    "auth.new_project": "admin",
     "openapi.openapi_json": "public",
     "offline.service_worker": "public",
     "offline.manifest": "public",
@@ -99,6 +100,8 @@ ALLOWED_ROLES = {
 
 # User text that must come out as text everywhere (HTML pages and the PDF).
 SCRIPT = '<script>alert("t1")</script>'
+# A pile mark full of markup; without "/", which a mark may not hold (it is part of the pile's address).
+MARK = '<script>alert("t3")<b>'
 IMG = '<img src=x onerror=alert("t2")>'
 BOLD = "<b>not bold</b>"
 
@@ -139,10 +142,10 @@ def world(tmp_path_factory, demo_template):
             values = piles.as_values(p1)
             values.update(mark="X9", cap_id=other_cap, ground_model_id=other_gm)
             piles.save_pile(conn, other, values)
-            values.update(mark=SCRIPT, cap_id=own_cap, ground_model_id=own_gm)
+            values.update(mark=MARK, cap_id=own_cap, ground_model_id=own_gm)
             piles.save_pile(conn, own, values)
         x9 = piles.get_pile(conn, other, "X9")
-        marked = piles.get_pile(conn, own, SCRIPT)
+        marked = piles.get_pile(conn, own, MARK)
         depth = round(100.0 - p1.toe_level_m, 2)
         for project_id, pile in ((own, p1), (other, x9), (own, marked)):
             record = {"progress": "logged", "notes": f"notes {SCRIPT} {IMG} {BOLD}", "rig": f"rig {IMG}",
@@ -419,18 +422,28 @@ def test_user_text_is_escaped_on_every_page(world):
     marked = world["marked_pile"]
     variants = [own, {**own, "mark": marked.mark, "pile_id": marked.id, "cap_id": marked.cap_id,
                       "model_id": marked.ground_model_id}]
-    pages, shown = 0, 0
+    pages, shown, marked_pages, unrendered = 0, 0, 0, []
     for rule, method in _routes(app):
         if method != "GET" or rule.rule.startswith(("/api/", "/static")):
             continue
+        access, extra = _expect(rule.endpoint)
+        if "engineer" not in ALLOWED_ROLES[access]:
+            continue  # the admin's screens; the matrix checks the engineer is refused
         for values in variants:
             response = client.get(_url(app, rule, values))
-            if response.mimetype != "text/html" or response.status_code != 200:
+            where = f"GET {_url(app, rule, values)}"
+            if response.status_code in extra:
+                continue  # an answer EXPECT names for this route (the site CA before serve --https)
+            if response.status_code != 200:
+                if response.mimetype == "text/html" or "mark" in rule.arguments:
+                    unrendered.append(f"{where}: {response.status_code}")  # a page that does not render
+                continue
+            if response.mimetype != "text/html":
                 continue
             html = response.get_data(as_text=True)
             pages += 1
-            where = f"GET {_url(app, rule, values)}"
-            for raw in (SCRIPT, IMG, BOLD):
+            marked_pages += values is not own and "mark" in rule.arguments
+            for raw in (SCRIPT, IMG, BOLD, MARK):
                 assert raw not in html, f"{where} shows {raw!r} unescaped"
             tags = _tags(html)
             assert tags.inline_scripts == [], f"{where}: inline <script> (the CSP would block it)"
@@ -438,7 +451,9 @@ def test_user_text_is_escaped_on_every_page(world):
             assert tags.markup == [], f"{where}: user text became markup"
             if "&lt;script&gt;alert(" in html or "\\u003cscript\\u003e" in html:
                 shown += 1
+    assert unrendered == [], "pages that did not render:\n" + "\n".join(unrendered)
     assert pages >= 10
+    assert marked_pages >= 2, "the pages of the pile whose mark holds markup must be among them"
     assert shown >= 3, "the injected text should be shown (escaped) on several pages"
 
 
@@ -549,3 +564,34 @@ def test_audit_records_failed_logins(app, auth, people):
     with app.app_context():
         entries = audit.entries(db.get_db(), None)
     assert any(e["action"] == "login failed" for e in entries)
+
+
+def test_every_write_without_a_csrf_token_is_refused(world, no_pdf_builds):
+    """Every route and method that is not a read, sent by a signed-in admin (who may do
+    everything) and by the anonymous visitor with a valid cookie but no CSRF token, in neither
+    the header nor the form: 400 (anonymous API writes: 401 before the token is looked at), and
+    the database unchanged."""
+    app, data = world["app"], world["data"]
+    door = Door(app)
+    failures, tried = [], 0
+    for rule, method in _routes(app):
+        if method == "GET":
+            continue
+        url = _url(app, rule, world["objects"][world["own"]])
+        for role in ("admin", "engineer", "anonymous"):
+            client = door.clients[role]
+            before = _fingerprint(data)
+            if url.startswith("/api/"):
+                response = client.open(url, method=method, json={"client_id": str(uuid.uuid4()),
+                                                                  "record": {"progress": "boring"}})
+            else:
+                response = client.open(url, method=method, data={"email": LOGINS["admin"][0],
+                                                                 "password": LOGINS["admin"][1]})
+            tried += 1
+            expected = {401} if role == "anonymous" and url.startswith("/api/") else {400}
+            if response.status_code not in expected:
+                failures.append(f"{role} {method} {url} without a CSRF token: {response.status_code}")
+            elif _fingerprint(data) != before:
+                failures.append(f"{role} {method} {url} without a CSRF token: refused but the database changed")
+    assert failures == [], "\n".join(failures)
+    assert tried >= 30
