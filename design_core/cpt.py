@@ -248,8 +248,9 @@ def _lcpc_qca(depths: np.ndarray, qc: np.ndarray, toes: np.ndarray, half: float,
               lo_frac: float, hi_frac: float) -> np.ndarray:
     """LCPC clipped mean q_ca (MPa) at each toe depth, window +-``half`` (m), vectorised.
 
-    One row of readings per toe (a strided view of the readings, padded with NaN past each
-    window, which every comparison drops), so no Python loop per toe.
+    One row of readings per toe (a strided view of the readings, padded with NaN past the last,
+    which every comparison drops; columns past a shorter window are cut from the mask), so no
+    Python loop per toe.
     """
     a, b = _window_bounds(depths, toes - half, toes + half)
     n = b - a
@@ -259,13 +260,16 @@ def _lcpc_qca(depths: np.ndarray, qc: np.ndarray, toes: np.ndarray, half: float,
     first = (cum[b] - cum[a]) / n
     width = int(n.max())
     rows = sliding_window_view(np.concatenate([qc, np.full(width, np.nan)]), width)[a]
-    rows[np.arange(width)[None, :] >= n[:, None]] = np.nan
     keep = (rows >= (lo_frac * first)[:, None]) & (rows <= (hi_frac * first)[:, None])
+    short = int(n.min())  # columns past a row's own window are cut (only the last few differ)
+    if short < width:
+        keep[:, short:] &= np.arange(short, width)[None, :] < n[:, None]
     count = np.count_nonzero(keep, axis=1)
     qca = np.sum(rows, axis=1, where=keep) / np.maximum(count, 1)
     empty = count == 0
     if np.any(empty):  # every reading dropped (a sharply layered window): the lowest, errs low
-        qca[empty] = np.nanmin(rows[empty], axis=1)
+        inside = np.arange(width)[None, :] < n[empty][:, None]
+        qca[empty] = np.where(inside, rows[empty], np.inf).min(axis=1)
     return qca
 
 

@@ -127,3 +127,11 @@ def test_deeper_toe_in_uniform_sand_never_loses_resistance():
     s = Sounding("U", 0, 0, 10.0, d, np.full(d.size, 12.0), np.full(d.size, 40.0))
     curve = cpt_capacity_curve(s, 0.5, 10.0, np.arange(9.0, -9.0, -0.25))
     assert np.all(np.diff(curve.ultimate) >= -1e-9)
+
+
+def test_lcpc_window_with_every_reading_dropped_takes_the_lowest():
+    # Half 1 MPa, half 10 MPa about the toe: first mean 5.5, band 3.85-7.15 keeps nothing, so
+    # the lowest reading (1 MPa) is used: erring low, never high.
+    d = np.round(np.arange(4.0, 6.01, 0.1), 6)
+    qc = np.where(d < 5.0, 1.0, 10.0)
+    assert lcpc_base_average(d, qc, 5.05, 0.4) == pytest.approx(1.0)
