@@ -244,31 +244,13 @@ def _window_mean(cum: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
 # LCPC
 # --------------------------------------------------------------------------------------------
 
-def _sliding_extremes(x: np.ndarray, w: int) -> tuple[np.ndarray, np.ndarray]:
-    """Min and max of every run of ``w`` consecutive values of ``x`` (van Herk / Gil-Werman):
-    element i covers x[i:i + w]; O(len(x)) with block prefix and suffix extremes."""
-    n = x.size
-    blocks = -(-(n + w) // w)
-    out = []
-    for fill, acc in ((np.inf, np.minimum), (-np.inf, np.maximum)):
-        pad = np.full(blocks * w, fill)
-        pad[:n] = x
-        grid = pad.reshape(blocks, w)
-        prefix = acc.accumulate(grid, axis=1).ravel()
-        suffix = acc.accumulate(grid[:, ::-1], axis=1)[:, ::-1].ravel()
-        out.append(acc(suffix[: n], prefix[w - 1: n + w - 1]))
-    return out[0], out[1]
-
-
 def _lcpc_qca(depths: np.ndarray, qc: np.ndarray, toes: np.ndarray, half: float,
               lo_frac: float, hi_frac: float) -> np.ndarray:
     """LCPC clipped mean q_ca (MPa) at each toe depth, window +-``half`` (m), vectorised.
 
-    The first mean from cumulative sums. A window whose lowest and highest readings both lie in
-    the band keeps every reading, so its q_ca is the first mean (window extremes in O(n)). The
-    others get one row of readings each (a strided view of the readings, zero-padded past the
-    last; every column past a row's own window is cut from the mask), so there is no Python
-    loop per toe.
+    The first mean from cumulative sums; then one row of readings per toe (a strided view of
+    the readings, zero-padded past the last; every column past a row's own window is cut from
+    the mask) and the kept readings summed row by row, so there is no Python loop per toe.
     """
     a, b = _window_bounds(depths, toes - half, toes + half)
     n = b - a
@@ -277,17 +259,6 @@ def _lcpc_qca(depths: np.ndarray, qc: np.ndarray, toes: np.ndarray, half: float,
     cum = np.concatenate([[0.0], np.cumsum(qc)])
     first = (cum[b] - cum[a]) / n
     short, width = int(n.min()), int(n.max())
-    # [a, b) is covered by the runs of ``short`` readings from a and ending at b when
-    # b - a <= 2 short
-    lo_run, hi_run = _sliding_extremes(qc, short)
-    wmin = np.minimum(lo_run[a], lo_run[b - short])
-    wmax = np.maximum(hi_run[a], hi_run[b - short])
-    qca = first.copy()
-    # (rows longer than twice the shortest are not covered by two runs: always done in full)
-    out = np.flatnonzero((wmin < lo_frac * first) | (wmax > hi_frac * first) | (n > 2 * short))
-    if out.size == 0:
-        return qca
-    a, n, first = a[out], n[out], first[out]
     rows = sliding_window_view(np.concatenate([qc, np.zeros(width)]), width)[a]
     keep = rows >= (lo_frac * first)[:, None]
     keep &= rows <= (hi_frac * first)[:, None]
@@ -295,12 +266,11 @@ def _lcpc_qca(depths: np.ndarray, qc: np.ndarray, toes: np.ndarray, half: float,
         keep[:, short:] &= np.arange(short, width)[None, :] < n[:, None]
     kept = keep.view(np.uint8)
     count = kept.sum(axis=1, dtype=np.int64)
-    part = np.einsum("ij,ij->i", rows, kept) / np.maximum(count, 1)
+    qca = np.einsum("ij,ij->i", rows, kept) / np.maximum(count, 1)
     empty = count == 0
     if np.any(empty):  # every reading dropped (a sharply layered window): the lowest, errs low
         inside = np.arange(width)[None, :] < n[empty][:, None]
-        part[empty] = np.where(inside, rows[empty], np.inf).min(axis=1)
-    qca[out] = part
+        qca[empty] = np.where(inside, rows[empty], np.inf).min(axis=1)
     return qca
 
 
