@@ -25,11 +25,10 @@ Methods (the rules' ``cpt_method``)
     read from the ratio f_s/q_E, a simplification of the paper's profiling chart to lines of
     constant ratio (thresholds in the rules, from memory; zone 1 is never assigned from it).
 
-Common to both: the shaft counts from ``top_level`` down, less ``exclusion_diameters`` x D (as
-``design_core.axial``), and nothing above the sounding's first reading; between readings the
-unit resistance is linear, so the shaft is an exact integral of a piecewise-linear profile held
-as cumulative sums. Design resistance by the rules' design approach, as ``design_core.axial``.
-Averages over a window are over the readings in it (soundings are read at a fixed interval).
+Both: the shaft counts from ``exclusion_diameters`` x D below ``top_level`` (as
+``design_core.axial``), nothing above the first reading, the unit resistance linear between
+readings (an exact integral held as cumulative sums); window averages are over the readings in
+the window; design resistance by the rules' design approach, as ``design_core.axial``.
 """
 
 from __future__ import annotations
@@ -83,7 +82,7 @@ LCPC_SOURCE = (
     "(values from memory; check against the paper). Pile group I / category IA: bored, CFA, "
     "screw; group II / category IIA: driven.")
 
-# Index order is used by _lcpc_category below.
+# The index order is the one of _BANDS below.
 LCPC_TABLE = (
     LcpcCategory("soft clay and mud (q_c < 1 MPa)", 0.40, 0.50, 30, 30, 15, 15),
     LcpcCategory("moderately compact clay (q_c 1-5 MPa)", 0.35, 0.45, 40, 40, 35, 35),
@@ -92,21 +91,21 @@ LCPC_TABLE = (
     LcpcCategory("soft chalk (q_c <= 5 MPa)", 0.20, 0.30, 100, 100, 35, 35),
     LcpcCategory("moderately compact sand and gravel (q_c 5-12 MPa)", 0.40, 0.50, 100, 100, 80, 80),
     LcpcCategory("weathered to fragmented chalk (q_c > 5 MPa)", 0.20, 0.40, 60, 60, 120, 120),
-    LcpcCategory("compact to very compact sand and gravel (q_c > 12 MPa)", 0.30, 0.40, 150, 150,
-                 120, 120),
+    LcpcCategory("compact to very compact sand, gravel (q_c > 12 MPa)", 0.30, 0.40, 150, 150, 120, 120),
 )
 
-EF_ZONES = {1: "sensitive and collapsible clay and silt", 2: "clay",
-            3: "silty clay, stiff clay and silt", 4: "sandy silt and silt",
-            5: "fine to coarse sand"}
+EF_ZONES = {1: "sensitive and collapsible clay and silt", 2: "clay", 3: "silty clay, stiff clay and "
+            "silt", 4: "sandy silt and silt", 5: "fine to coarse sand"}
 
 
 # --------------------------------------------------------------------------------------------
 # Input
 # --------------------------------------------------------------------------------------------
 
-def _readings(name: str, values: Any, n: int | None, lo: float, hi: float) -> np.ndarray:
-    """A read-only 1-D float array of ``n`` finite readings in [lo, hi]; ValueError naming it."""
+def _readings(name: str, values: Any, n: int | None, lo: float, hi: float,
+              ref: str = "depths_m") -> np.ndarray:
+    """A read-only 1-D float array of ``n`` finite readings in [lo, hi] (``n`` the length of the
+    array named ``ref``); ValueError naming the field, the value and the range."""
     try:
         arr = np.array(values, dtype=float)
     except (TypeError, ValueError):
@@ -114,7 +113,7 @@ def _readings(name: str, values: Any, n: int | None, lo: float, hi: float) -> np
     if arr.ndim != 1 or arr.size == 0:
         raise ValueError(f"{name} must be a non-empty list of numbers")
     if n is not None and arr.size != n:
-        raise ValueError(f"{name} has {arr.size} readings, depths_m has {n}")
+        raise ValueError(f"{name} has {arr.size} values, {ref} has {n}")
     bad = np.flatnonzero(~np.isfinite(arr) | (arr < lo) | (arr > hi))
     if bad.size:
         k = int(bad[0])
@@ -167,11 +166,6 @@ class Sounding:
     def levels(self) -> np.ndarray:
         """Levels of the readings (m), top down."""
         return self.ground_level - self.depths_m
-
-    @property
-    def bottom_level(self) -> float:
-        """Level of the last reading (m)."""
-        return float(self.ground_level - self.depths_m[-1])
 
     def distance_to(self, easting: float, northing: float) -> float:
         """Plan distance (m) from the sounding to a point (m)."""
@@ -233,11 +227,6 @@ def _window_bounds(depths: np.ndarray, lo: np.ndarray, hi: np.ndarray):
     a = np.searchsorted(depths, lo - DEPTH_TOL_M, side="left")
     b = np.searchsorted(depths, hi + DEPTH_TOL_M, side="right")
     return a, b
-
-
-def _window_mean(cum: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Mean of the readings a..b-1 from their cumulative sum ``cum`` (cum[0] = 0)."""
-    return (cum[b] - cum[a]) / np.maximum(b - a, 1)
 
 
 # --------------------------------------------------------------------------------------------
@@ -302,19 +291,6 @@ def lcpc_base_average(depths_m: Any, qc_mpa: Any, toe_depth_m: float, diameter_m
             f"the sounding covers {depths[0]:g} to {depths[-1]:g} m")
     return float(_lcpc_qca(depths, qc, np.array([toe]), half, rules.lcpc_clip_low,
                            rules.lcpc_clip_high)[0])
-
-
-def lcpc_category(nature: str, qc_mpa: float | np.ndarray) -> np.ndarray:
-    """Index into ``LCPC_TABLE`` for a soil nature (one of NATURES) and q_c (MPa).
-
-    clay (and sensitive): < 1 soft, 1-5 moderately compact, > 5 compact; silt: < 1 soft, <= 5
-    silt and loose sand, > 5 compact; sand, gravel: <= 5 loose, 5-12 moderately compact, > 12
-    compact; chalk: <= 5 soft, > 5 weathered (the paper's q_c bands).
-    """
-    if nature not in NATURES:
-        raise ValueError(f"soil nature must be one of {', '.join(NATURES)}, got {nature!r}")
-    qc = np.asarray(qc_mpa, dtype=float)
-    return _lcpc_categories(np.full(qc.shape, NATURES.index(nature)), qc)
 
 
 # (k_c, alpha, f_max in kPa) per category, for pile groups "i" and "ii"
@@ -507,7 +483,7 @@ class _Profile:
             return qca, kc, kc * qca * 1000.0
         a, b = _window_bounds(self.depths, toes - rules.ef_above_diameters * diameter,
                               toes + rules.ef_below_diameters * diameter)
-        qeg = np.exp(_window_mean(self.logq, a, b))
+        qeg = np.exp((self.logq[b] - self.logq[a]) / np.maximum(b - a, 1))  # mean of ln q_E
         return qeg, np.full_like(qeg, self.ct), self.ct * qeg * 1000.0
 
 
@@ -612,16 +588,13 @@ def cpt_capacity(sounding: Sounding, diameter: float, top_level: float, toe_leve
     curve = cpt_capacity_curve(sounding, diameter, top_level, [toe_level], pile_type, rules,
                                method=method, soil=soil)
     prof = _Profile(sounding, diameter, pile_type, rules, method, soil)
-    q, coef, qb = prof.base(np.array([sounding.ground_level - toe_level]), diameter, rules)
-    shaft, base = float(curve.shaft[0]), float(curve.base[0])
-    design = float(curve.design[0])
-    if method == "lcpc":
-        how = f"LCPC, q_ca {q[0]:.2f} MPa x k_c {coef[0]:.2f}"
-    else:
-        how = f"Eslami & Fellenius, q_Eg {q[0]:.2f} MPa x C_t {coef[0]:.2f}"
+    q, coef, qb = (float(x[0]) for x in prof.base(
+        np.array([sounding.ground_level - toe_level]), diameter, rules))
+    shaft, base, design = float(curve.shaft[0]), float(curve.base[0]), float(curve.design[0])
+    how = (f"LCPC, q_ca {q:.2f} MPa x k_c" if method == "lcpc"
+           else f"Eslami & Fellenius, q_Eg {q:.2f} MPa x C_t") + f" {coef:.2f}"
     reason = (f"Design {design:.0f} kN ({_approach_text(rules)}) from shaft {shaft:.0f} kN and "
-              f"base {base:.0f} kN ({how} = {qb[0]:.0f} kPa) from CPT {sounding.name}, "
+              f"base {base:.0f} kN ({how} = {qb:.0f} kPa) from CPT {sounding.name}, "
               f"{prof.soil_note}, for D {diameter:g} m, toe {toe_level:.2f} m.")
     return CptResult(sounding.name, method, diameter, top_level, toe_level, pile_type, shaft, base,
-                     shaft + base, design, float(q[0]), float(coef[0]), float(qb[0]),
-                     rules.design_approach, reason)
+                     shaft + base, design, q, coef, qb, rules.design_approach, reason)

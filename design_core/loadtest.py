@@ -39,6 +39,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from design_core.checks import Check
+from design_core.cpt import _readings
 from design_core.rules import Rules
 from design_core.validate import number
 
@@ -51,20 +52,7 @@ TIME_RANGE_MIN = (0.0, 1e6)
 
 def _series(name: str, values: Any, n: int | None, lo: float, hi: float) -> np.ndarray:
     """A read-only 1-D float array of finite values in [lo, hi]; ValueError naming it."""
-    try:
-        arr = np.array(values, dtype=float)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name} must be a list of numbers") from None
-    if arr.ndim != 1 or arr.size == 0:
-        raise ValueError(f"{name} must be a non-empty list of numbers")
-    if n is not None and arr.size != n:
-        raise ValueError(f"{name} has {arr.size} values, load_kn has {n}")
-    bad = np.flatnonzero(~np.isfinite(arr) | (arr < lo) | (arr > hi))
-    if bad.size:
-        k = int(bad[0])
-        raise ValueError(f"{name}[{k}] must be between {lo:g} and {hi:g}, got {arr[k]:g}")
-    arr.setflags(write=False)
-    return arr
+    return _readings(name, values, n, lo, hi, ref="load_kn")
 
 
 # --------------------------------------------------------------------------------------------

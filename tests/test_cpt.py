@@ -24,7 +24,7 @@ def sounding(name="CPT-1", e=0.0, n=0.0, u2=True):
 @pytest.mark.parametrize("kwargs, field", [
     ({"depths_m": [0.1, 0.1]}, "depths_m"),
     ({"qc_mpa": [1.0, -2.0]}, "qc_mpa\\[1\\]"),
-    ({"fs_kpa": [1.0]}, "fs_kpa has 1 readings"),
+    ({"fs_kpa": [1.0]}, "fs_kpa has 1 values"),
     ({"u2_kpa": [0.0, float("nan")]}, "u2_kpa\\[1\\]"),
     ({"ground_level": float("inf")}, "ground_level"),
     ({"name": ""}, "name"),
