@@ -8,7 +8,7 @@ Methods (the rules' ``cpt_method``)
 * **LCPC** (Bustamante & Gianeselli 1982, "Pile bearing capacity prediction by means of static
   penetrometer CPT", Proc. 2nd European Symposium on Penetration Testing, Amsterdam):
 
-  - base q_b = k_c q_ca, where q_ca is the mean of the readings from 1.5 D above to 1.5 D below
+  - base q_b = k_c q_ca (k_c by the nature at the toe and the band of q_ca), q_ca the mean of the readings from 1.5 D above to 1.5 D below
     the toe after the readings outside 0.7-1.3 times that first mean are dropped and the rest
     averaged again (``lcpc_base_average``); k_c by soil category and pile group;
   - shaft f_s = min(q_c / alpha, f_max) at every reading, alpha and f_max by soil category and
@@ -445,7 +445,7 @@ class _Profile:
                 self.soil_note = "soil categories by layer"
             cat = _lcpc_categories(natures, qc)
             self.unit = np.minimum(qc * (1000.0 / alpha[cat]), fmax[cat])  # kPa
-            self.kc = kc[cat]
+            self.kc, self.natures = kc, natures
             self.q = qc
         else:
             if s.u2_kpa is None:
@@ -479,7 +479,7 @@ class _Profile:
             qca = _lcpc_qca(self.depths, self.q, toes, half, rules.lcpc_clip_low,
                             rules.lcpc_clip_high)
             i = np.clip(np.searchsorted(self.depths, toes, side="right") - 1, 0, self.depths.size - 1)
-            kc = self.kc[i]  # k_c of the category at the toe
+            kc = self.kc[_lcpc_categories(self.natures[i], qca)]  # nature at the toe, band of q_ca
             return qca, kc, kc * qca * 1000.0
         a, b = _window_bounds(self.depths, toes - rules.ef_above_diameters * diameter,
                               toes + rules.ef_below_diameters * diameter)

@@ -66,7 +66,7 @@ class LoadTestRecord:
     ``load_kn`` (kN, 0-1e6) and ``settlement_mm`` (mm, -50 to 2000, positive down) at each
     reading; optional ``time_min`` (minutes from the start, not decreasing), ``hold`` (the stage
     number each reading belongs to: readings of one hold are consecutive) and ``cycle`` (1, 2,
-    ... for the loading cycles). Without ``hold`` each reading is a stage of its own.
+    ... for the loading cycles). Without ``hold`` consecutive readings at one load form a hold.
     """
 
     load_kn: Any
@@ -105,11 +105,9 @@ class LoadTestRecord:
                 raise ValueError("hold: the readings of each hold must be consecutive")
 
     def stages(self) -> list[np.ndarray]:
-        """Row indices of each hold, in order (one row per stage without ``hold``)."""
-        if self.hold is None:
-            return [np.array([k]) for k in range(self.load_kn.size)]
-        starts = np.concatenate([[0], np.flatnonzero(np.diff(self.hold) != 0) + 1,
-                                 [self.hold.size]])
+        """Row indices of each hold, in order (without ``hold``: runs of one load)."""
+        marks = self.load_kn if self.hold is None else self.hold
+        starts = np.concatenate([[0], np.flatnonzero(np.diff(marks) != 0) + 1, [marks.size]])
         return [np.arange(a, b) for a, b in zip(starts[:-1], starts[1:], strict=True)]
 
     def virgin_curve(self) -> tuple[np.ndarray, np.ndarray]:

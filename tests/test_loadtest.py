@@ -8,7 +8,8 @@ import pytest
 
 from design_core import checks
 from design_core.loadtest import (
-    CODES, CslZone, LoadTestRecord, integrity_check, interpret_load_test, load_test_check,
+    CODES, CslZone, LoadTestRecord, creep_per_hold, integrity_check, interpret_load_test,
+    load_test_check,
 )
 
 AREA = math.pi * 0.6 ** 2 / 4
@@ -109,3 +110,13 @@ def test_checks_are_json_ready():
     for check in (load_test_check(res, 1000.0), integrity_check("defect")):
         assert set(json.loads(json.dumps(check.to_dict()))) >= {"code", "ok", "reason"}
     assert np.isfinite(res.max_load_kn)
+
+
+def test_without_hold_numbers_a_run_at_one_load_is_a_hold():
+    rec = LoadTestRecord([0, 800, 800, 800, 1600, 1600], [0, 2.0, 2.3, 2.4, 5.0, 5.6],
+                         time_min=[0, 1, 30, 60, 61, 121])
+    q, s = rec.virgin_curve()
+    assert q.tolist() == [0, 800, 1600] and s.tolist() == [0, 2.4, 5.6]
+    creep = creep_per_hold(rec)
+    assert [c.load_kn for c in creep] == [0, 800, 1600]
+    assert creep[1].creep_mm == pytest.approx(0.4) and creep[2].end_rate_mm_per_h == pytest.approx(0.6)

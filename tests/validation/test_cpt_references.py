@@ -116,3 +116,17 @@ def test_eslami_fellenius_toe_coefficient_for_large_piles():
     # C_t = 1/(3 b), b in m, above 0.4 m (from memory): b = 0.9 m -> 0.3704.
     assert ef_toe_coefficient(0.3) == 1.0
     assert ef_toe_coefficient(0.9) == pytest.approx(1 / 2.7, rel=1e-12)
+
+
+def test_lcpc_kc_band_is_read_from_q_ca_not_the_single_reading():
+    # Hand calculation. Sand at 11 MPa with one reading of 13 MPa at the toe (10 m), D 0.4 m,
+    # window 9.4-10.6 m (13 readings): first mean (12 x 11 + 13) / 13 = 11.1538, band
+    # 7.81-14.50, all kept: q_ca = 11.1538 MPa, "moderately compact sand" (5-12 MPa), k_c 0.40
+    # (the lone 13 MPa reading alone would say "compact", k_c 0.30).
+    s = uniform(11.0, 30.0)
+    qc = s.qc_mpa.copy()
+    qc[np.isclose(s.depths_m, 10.0)] = 13.0
+    s = Sounding("CPT-K", 0.0, 0.0, 10.0, s.depths_m, qc, s.fs_kpa)
+    r = cpt_capacity(s, 0.4, 10.0, 0.0, "bored", NO_EXCLUSION, soil="sand")
+    assert r.q_base_mpa == pytest.approx(145.0 / 13.0, rel=1e-12)
+    assert r.base_coefficient == pytest.approx(0.40)
