@@ -8,9 +8,10 @@ Methods (the rules' ``cpt_method``)
 * **LCPC** (Bustamante & Gianeselli 1982, "Pile bearing capacity prediction by means of static
   penetrometer CPT", Proc. 2nd European Symposium on Penetration Testing, Amsterdam):
 
-  - base q_b = k_c q_ca (k_c by the nature at the toe and the band of q_ca), q_ca the mean of the readings from 1.5 D above to 1.5 D below
-    the toe after the readings outside 0.7-1.3 times that first mean are dropped and the rest
-    averaged again (``lcpc_base_average``); k_c by soil category and pile group;
+  - base q_b = k_c q_ca, q_ca the mean of the readings from 1.5 D above to 1.5 D below the
+    toe after the readings outside 0.7-1.3 times that first mean are dropped and the rest
+    averaged again (``lcpc_base_average``); k_c by pile group and the category of the soil
+    nature at the toe in the q_c band of q_ca;
   - shaft f_s = min(q_c / alpha, f_max) at every reading, alpha and f_max by soil category and
     pile category. The table (``LCPC_TABLE``) is from memory; check it against the paper.
 
