@@ -498,9 +498,8 @@ def cpt_toe_limits(sounding: Sounding, diameter: float, rules: Rules | None = No
     rules = rules or Rules()
     method = method or rules.cpt_method
     below = (rules.lcpc_window_diameters if method == "lcpc" else rules.ef_below_diameters)
-    d = sounding.depths_m
-    return (float(sounding.ground_level - d[0]),
-            float(sounding.ground_level - d[-1] + below * diameter))
+    d, g = sounding.depths_m, sounding.ground_level
+    return float(g - d[0]), float(g - d[-1] + below * diameter)
 
 
 def _check(sounding: Any, diameter: Any, top_level: Any, pile_type: Any, rules: Any,
