@@ -279,6 +279,168 @@ class Rules:
         90.0, "Time from batching to discharge, most allowed", "min",
         "ASTM C94/C94M section 10.7 (editions to 2013): discharge within 1.5 h.", 10.0, 600.0)
 
+    # --- in situ tests, rock sockets and load tests (design_core.cpt, .spt, .rock, .loadtest) -
+    cpt_method: str = _rule(
+        "lcpc", "Design method from CPT soundings", "",
+        "lcpc: Bustamante & Gianeselli (1982), Pile bearing capacity prediction by means of "
+        "static penetrometer CPT, Proc. ESOPT II. eslami_fellenius: Eslami & Fellenius (1997), "
+        "Can. Geotech. J. 34. Project choice: use the design's own method.",
+        choices=("lcpc", "eslami_fellenius"))
+    lcpc_table: str = _rule(
+        "lcpc_1982", "LCPC k_c, alpha and f_max table", "",
+        "Bustamante & Gianeselli (1982) tables of k_c (base), alpha and f_max (shaft) by soil "
+        "category and pile group, values from memory as reproduced in textbooks; the table "
+        "is printed in design_core.cpt.LCPC_TABLE. Check against the paper.",
+        choices=("lcpc_1982",))
+    lcpc_window_diameters: float = _rule(
+        1.5, "LCPC: q_ca averaged this far above and below the toe", "D",
+        "Bustamante & Gianeselli (1982): a = 1.5 D either side of the toe (secondary source).",
+        0.5, 5.0)
+    lcpc_clip_low: float = _rule(
+        0.7, "LCPC: readings below this fraction of the first mean dropped", "",
+        "Bustamante & Gianeselli (1982): q_c outside 0.7-1.3 q'_ca dropped before averaging "
+        "again (secondary source).", 0.1, 1.0)
+    lcpc_clip_high: float = _rule(
+        1.3, "LCPC: readings above this multiple of the first mean dropped", "",
+        "Bustamante & Gianeselli (1982), as lcpc_clip_low (secondary source).", 1.0, 5.0)
+    ef_above_diameters: float = _rule(
+        8.0, "Eslami & Fellenius: toe zone above the toe", "D",
+        "Eslami & Fellenius (1997): 8 b above the toe, 2 b when the pile enters a denser layer "
+        "from a weaker one (secondary source); 8 b is the lower, conservative case.", 1.0, 20.0)
+    ef_below_diameters: float = _rule(
+        4.0, "Eslami & Fellenius: toe zone below the toe", "D",
+        "Eslami & Fellenius (1997): 4 b below the toe (secondary source).", 1.0, 10.0)
+    ef_ct_diameter_m: float = _rule(
+        0.4, "Eslami & Fellenius: toe coefficient C_t = 1 up to this diameter, 1/(3 b) above", "m",
+        "Toe coefficient C_t = 1 (Eslami & Fellenius 1997); C_t = 1/(3 b), b in m, for larger "
+        "piles (Fellenius, Basics of Foundation Design; from memory).", 0.1, 3.0)
+    ef_rf_sand_pct: float = _rule(
+        0.6, "Eslami & Fellenius: sand when f_s/q_E is at most", "%",
+        "A simplification of the Eslami & Fellenius (1997) soil profiling chart to lines of "
+        "constant f_s/q_E; threshold from memory: digitise the chart before relying on it, or "
+        "give the soil type by layer.", 0.05, 10.0)
+    ef_rf_sandy_silt_pct: float = _rule(
+        1.2, "Eslami & Fellenius: sandy silt when f_s/q_E is at most", "%",
+        "As ef_rf_sand_pct (chart simplified to constant f_s/q_E; from memory).", 0.05, 10.0)
+    ef_rf_silty_clay_pct: float = _rule(
+        2.5, "Eslami & Fellenius: silty clay when f_s/q_E is at most (clay above)", "%",
+        "As ef_rf_sand_pct (chart simplified to constant f_s/q_E; from memory). Zone 1, "
+        "sensitive soil, is never assigned by the ratio: give it by layer.", 0.05, 20.0)
+    ef_cs_sensitive: float = _rule(
+        0.08, "Eslami & Fellenius C_s, zone 1 sensitive and collapsible clay and silt", "",
+        "Eslami & Fellenius (1997) shaft coefficient C_s (from memory).", 0.0, 0.2)
+    ef_cs_clay: float = _rule(
+        0.05, "Eslami & Fellenius C_s, zone 2 clay", "",
+        "Eslami & Fellenius (1997) shaft coefficient C_s (from memory).", 0.0, 0.2)
+    ef_cs_silty_clay: float = _rule(
+        0.025, "Eslami & Fellenius C_s, zone 3 silty clay, stiff clay and silt", "",
+        "Eslami & Fellenius (1997) shaft coefficient C_s (from memory).", 0.0, 0.2)
+    ef_cs_sandy_silt: float = _rule(
+        0.01, "Eslami & Fellenius C_s, zone 4 sandy silt and silt", "",
+        "Eslami & Fellenius (1997) shaft coefficient C_s (from memory).", 0.0, 0.2)
+    ef_cs_sand: float = _rule(
+        0.004, "Eslami & Fellenius C_s, zone 5 fine to coarse sand", "",
+        "Eslami & Fellenius (1997) shaft coefficient C_s (from memory).", 0.0, 0.2)
+    cone_area_ratio: float = _rule(
+        0.8, "Cone net area ratio a (q_t = q_c + u_2 (1 - a))", "",
+        "Lunne, Robertson & Powell (1997), CPT in Geotechnical Practice; 0.7-0.85 is typical, "
+        "set from the cone's calibration (common practice).", 0.5, 1.0)
+    sounding_distance_m: float = _rule(
+        30.0, "Nearest sounding used within", "m",
+        "Project choice (common practice: a sounding within the zone it represents); beyond it "
+        "the engineer assigns a sounding or the check is not made.", 0.0, 1000.0)
+    spt_reference_energy_pct: float = _rule(
+        60.0, "Reference hammer energy ratio for N60", "%",
+        "N60 = N ER/60 (Skempton 1986; ASTM D4633 energy measurement; secondary source).",
+        30.0, 100.0)
+    spt_base_ld_coefficient_kpa: float = _rule(
+        40.0, "Meyerhof SPT base: q_b = coefficient x N60 x L_b/D", "kPa",
+        "Meyerhof (1976), J. Geotech. Eng. Div. ASCE 102(GT3): q_b = 0.4 p_a N (L_b/D) in sand "
+        "(from memory, as quoted by Das, Principles of Foundation Engineering).", 0.0, 200.0)
+    spt_base_limit_kpa: float = _rule(
+        400.0, "Meyerhof SPT base limit: q_b at most coefficient x N60", "kPa",
+        "Meyerhof (1976): Q_u = 400 N A_b + 2 N A_s kN for displacement piles (secondary "
+        "source); q_b <= 4 p_a N.", 0.0, 2000.0)
+    spt_shaft_coefficient_kpa: float = _rule(
+        2.0, "Meyerhof SPT shaft: f_s = coefficient x mean N60 (displacement piles)", "kPa",
+        "Meyerhof (1976): 2 N A_s for displacement piles, N A_s for H piles (secondary "
+        "source).", 0.0, 20.0)
+    spt_shaft_limit_kpa: float = _rule(
+        100.0, "Meyerhof SPT shaft limit", "kPa",
+        "Meyerhof (1976): f_s <= 1 tsf (about 100 kPa) for displacement piles (from memory).",
+        0.0, 500.0)
+    spt_nondisplacement_base_fraction: float = _rule(
+        1.0 / 3.0, "Meyerhof SPT: base of bored, CFA and screw piles as a fraction", "",
+        "Meyerhof (1976): bored piles Q_u = 133 N A_b + 0.67 N A_s, about 1/3 of the driven "
+        "values (secondary source). Screw piles take it too (conservative).", 0.05, 1.0)
+    spt_nondisplacement_shaft_fraction: float = _rule(
+        1.0 / 3.0, "Meyerhof SPT: shaft of bored, CFA and screw piles as a fraction", "",
+        "Meyerhof (1976), as spt_nondisplacement_base_fraction (secondary source).", 0.05, 1.0)
+    spt_base_above_diameters: float = _rule(
+        10.0, "Meyerhof SPT: base N averaged from this far above the toe", "D",
+        "N near the pile point, about 10 D above and 4 D below (Das, Principles of Foundation "
+        "Engineering, quoting Meyerhof 1976; from memory).", 0.0, 20.0)
+    spt_base_below_diameters: float = _rule(
+        4.0, "Meyerhof SPT: base N averaged to this far below the toe", "D",
+        "As spt_base_above_diameters (from memory).", 0.0, 10.0)
+    rock_socket_rule: str = _rule(
+        "rowe_armitage", "Rock socket side resistance rule", "",
+        "rowe_armitage: f_s = 0.45 sqrt(q_u) smooth, 0.6 sqrt(q_u) rough, MPa (Rowe & Armitage "
+        "1987, Can. Geotech. J. 24). kulhawy_prakoso: f_s/p_a = C sqrt(q_u/p_a) (Kulhawy & "
+        "Prakoso 2005). Both from memory.", choices=("rowe_armitage", "kulhawy_prakoso"))
+    rock_ra_smooth: float = _rule(
+        0.45, "Rowe & Armitage coefficient, smooth socket", "MPa^0.5",
+        "Rowe & Armitage (1987): f_s = 0.45 sqrt(q_u) MPa, smooth sockets (from memory).",
+        0.05, 2.0)
+    rock_ra_rough: float = _rule(
+        0.6, "Rowe & Armitage coefficient, rough socket", "MPa^0.5",
+        "Rowe & Armitage (1987): f_s = 0.6 sqrt(q_u) MPa, rough sockets (from memory).",
+        0.05, 2.0)
+    rock_kp_c: float = _rule(
+        1.0, "Kulhawy & Prakoso coefficient C", "",
+        "Kulhawy & Prakoso (2005), f_s/p_a = C sqrt(q_u/p_a), C about 1 for normal sockets "
+        "(from memory).", 0.1, 3.0)
+    rock_base_factor: float = _rule(
+        2.5, "Rock socket base: q_b = factor x q_u", "",
+        "Rowe & Armitage (1987): end bearing 2.5 q_u for sound rock (from memory).", 0.1, 10.0)
+    rock_rqd_min_pct: float = _rule(
+        50.0, "Lowest RQD for the q_u rules", "%",
+        "Common practice: the q_u correlations assume a sound rock mass; below this RQD the "
+        "socket is not checked from q_u (use the report's values).", 0.0, 100.0)
+    load_test_fit_r2_min: float = _rule(
+        0.95, "Load test: least r^2 of a Chin, Brinch Hansen or De Beer line", "",
+        "Common practice: a hyperbolic fit is trusted only when the points lie on a line.",
+        0.5, 1.0)
+    load_test_fit_from_fraction: float = _rule(
+        0.5, "Load test: lines fitted to the points above this fraction of the highest load", "",
+        "Common practice (Chin 1970 fits the later, straight part of s/Q against s).",
+        0.0, 0.95)
+    load_test_davisson_offset_mm: float = _rule(
+        3.8, "Davisson offset, constant part", "mm",
+        "Davisson (1972): s = Q L/(A E) + 3.8 mm + D/120 (Fellenius 2001; secondary source).",
+        0.0, 50.0)
+    load_test_davisson_diameter_divisor: float = _rule(
+        120.0, "Davisson offset, D divided by", "",
+        "Davisson (1972), as load_test_davisson_offset_mm (secondary source).", 10.0, 1000.0)
+    load_test_creep_rate_mm_per_h: float = _rule(
+        0.25, "Load test hold: settlement rate at the end of a hold, most", "mm/h",
+        "ASTM D1143/D1143M maintained load procedure: hold until the rate is at most 0.25 mm/h "
+        "(from memory); set from the project specification.", 0.0, 50.0)
+    csl_fat_anomaly_pct: float = _rule(
+        10.0, "CSL: first-arrival-time increase above which a pair is an anomaly", "%",
+        "Crosshole sonic logging rating bands used with ASTM D6760: good 0-10 %, questionable "
+        "11-20 %, flaw 21-30 %, defect > 30 % (from memory).", 0.0, 100.0)
+    csl_fat_defect_pct: float = _rule(
+        30.0, "CSL: first-arrival-time increase above which a pair is a defect", "%",
+        "As csl_fat_anomaly_pct (ASTM D6760 practice; from memory).", 0.0, 200.0)
+    csl_energy_anomaly_db: float = _rule(
+        6.0, "CSL: energy reduction from which a pair is an anomaly", "dB",
+        "Rating bands used with ASTM D6760: good < 6 dB, questionable < 9 dB, flaw 9-12 dB, "
+        "defect > 12 dB (from memory).", 0.0, 60.0)
+    csl_energy_defect_db: float = _rule(
+        12.0, "CSL: energy reduction above which a pair is a defect", "dB",
+        "As csl_energy_anomaly_db (ASTM D6760 practice; from memory).", 0.0, 60.0)
+
     def __post_init__(self):
         for f in fields(self):
             meta = f.metadata
