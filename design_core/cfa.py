@@ -226,8 +226,10 @@ def increments(log: RigLog, diameter_m: float, rules: Rules | None = None) -> Cf
     ext = log.phase("extraction")
     depths = np.array([r.depth_m for r in ext])
     vols = np.array([r.concrete_volume_m3 for r in ext])
-    deep, shallow = float(depths.max()), float(depths.min())
-    if deep - shallow < 0.01:
+    # from the toe the auger reached: a stretch withdrawn before the extraction readings start
+    # has no concrete logged and shows as an empty increment
+    deep, shallow = log.toe_depth_m, float(depths.min())
+    if float(depths.max()) - shallow < 0.01:
         raise ValueError("the extraction readings cover no depth (auger not withdrawn)")
     grid = _grid(deep, shallow, rules.cfa_increment_m)
     tops = np.array([g[0] for g in grid])
@@ -318,6 +320,11 @@ def check_increment_volume(profile: CfaProfile, cutoff_depth_m: float = 0.0) -> 
     if not below:
         return Check.not_checked(code, "", "No rig increments below the cut-off depth")
     worst = min(below, key=lambda i: i.ratio)
+    log_top = min(i.top_depth_m for i in profile.increments)
+    if log_top > cut + 0.01 and worst.ok:
+        return Check.not_checked(
+            code, "", f"The rig's extraction log stops at {log_top:.2f} m, below the cut-off depth "
+            f"{max(cut, 0.0):.2f} m: the top {log_top - max(cut, 0.0):.2f} m of the shaft is not covered")
     lo = profile.ratio_min
     util = lo / worst.ratio if worst.ratio > 0 else math.inf
     n_short = sum(1 for i in below if not i.ok)

@@ -138,6 +138,14 @@ class Redrive:
         number("set_mm_per_10", self.set_mm_per_10, 0.0, 500.0)
 
 
+def _objects(data: Mapping[str, Any], key: str, keys: str) -> list[Mapping[str, Any]]:
+    """The list of objects under ``key`` of a record body; ValueError naming it otherwise."""
+    items = data.get(key) or []
+    if not isinstance(items, (list, tuple)) or not all(isinstance(i, Mapping) for i in items):
+        raise ValueError(f"{key} must be a list of objects with {keys}")
+    return list(items)
+
+
 @dataclass(frozen=True)
 class DrivingRecord:
     """The driving record of one pile.
@@ -188,9 +196,10 @@ class DrivingRecord:
             blows_per_250mm=tuple(data.get("blows_per_250mm") or ()),
             from_depth_m=data.get("from_depth_m", 0.0) or 0.0,
             final_set_mm_per_10=tuple(data.get("final_set_mm_per_10") or ()),
-            redrive=tuple(Redrive(r.get("at", ""), r.get("set_mm_per_10")) for r in data.get("redrive") or ()),
+            redrive=tuple(Redrive(r.get("at", ""), r.get("set_mm_per_10"))
+                          for r in _objects(data, "redrive", "at, set_mm_per_10")),
             elements=tuple(DrivenElement(e.get("length_m"), e.get("splice") or "")
-                           for e in data.get("elements") or ()),
+                           for e in _objects(data, "elements", "length_m, splice")),
         )
 
     @property
@@ -411,8 +420,12 @@ def gates_resistance(record: DrivingRecord, rules: Rules | None = None) -> Gates
     return GatesResult(energy, s, n_b, r_u, design, rules.design_approach, text)
 
 
-def _demand(load_kn: float, rules: Rules) -> float:
-    """The design compression (kN) on the basis of the resistance (working or factored)."""
+def axial_demand(load_kn: float, rules: Rules) -> float:
+    """The design compression (kN) on the basis of the resistance: working loads for working
+    stress, factored for limit state, converted with ``rules.load_factor`` from what the
+    schedule holds (``rules.loads_are``). The same conversion as the recheck's axial checks
+    (tests/test_driving.py holds the two together).
+    """
     if rules.design_approach == "working_stress":
         return load_kn / rules.load_factor if rules.loads_are == "factored" else load_kn
     return load_kn * rules.load_factor if rules.loads_are == "working" else load_kn
@@ -434,7 +447,7 @@ def check_driving_resistance(record: DrivingRecord, compression_kn: float,
     res = gates_resistance(record, rules)
     if isinstance(res, str):
         return Check.not_checked(code, "kN", f"{res} ({weaker})")
-    demand = _demand(load, rules)
+    demand = axial_demand(load, rules)
     util = demand / res.design_kn if res.design_kn > 0 else math.inf
     ok = util <= 1.0 + _TOL
     basis = "Working" if rules.design_approach == "working_stress" else "Factored"

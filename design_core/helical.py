@@ -27,6 +27,7 @@ from typing import Any, Iterable
 
 from design_core.axial import n_q
 from design_core.checks import Check
+from design_core.driving import axial_demand
 from design_core.rules import Rules
 from design_core.validate import number
 
@@ -239,13 +240,6 @@ def helix_bearing(helices: Iterable[Helix], soils: Iterable[HelixSoil], shaft_mm
                         f"({how}: design {design:.0f} kN)")
 
 
-def _demand(load_kn: float, rules: Rules) -> float:
-    """The design compression (kN) on the basis of the resistance (working or factored)."""
-    if rules.design_approach == "working_stress":
-        return load_kn / rules.load_factor if rules.loads_are == "factored" else load_kn
-    return load_kn * rules.load_factor if rules.loads_are == "working" else load_kn
-
-
 def check_torque_capacity(readings: Iterable[TorqueReading | dict], compression_kn: float,
                           shaft_shape: str | None = None, shaft_mm: float | None = None,
                           kt_per_m: float | None = None, rules: Rules | None = None,
@@ -275,18 +269,15 @@ def check_torque_capacity(readings: Iterable[TorqueReading | dict], compression_
         design, how = rules.helical_phi * q_u, f"phi {rules.helical_phi:g}"
     else:
         design, how = q_u / rules.helical_fs, f"FS {rules.helical_fs:g}"
-    demand = _demand(load, rules)
+    demand = axial_demand(load, rules)
     text = (f"K_t {kt:g} 1/m x {final.reason} = {q_u:.0f} kN ({kt_from}; {how}: design "
             f"{design:.0f} kN)")
     governing = design
     if bearing is not None:
-        if bearing.design_kn is None:
-            text += f"; {bearing.reason}"
-        else:
-            text += f"; {bearing.reason}"
-            if bearing.design_kn < governing:
-                governing = bearing.design_kn
-                text += ", which governs"
+        text += f"; {bearing.reason}"
+        if bearing.design_kn is not None and bearing.design_kn < governing:
+            governing = bearing.design_kn
+            text += ", which governs"
     util = demand / governing if governing > 0 else math.inf
     ok = util <= 1.0 + _TOL
     basis = "Working" if rules.design_approach == "working_stress" else "Factored"

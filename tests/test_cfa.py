@@ -145,3 +145,22 @@ def test_profile_to_dict_is_plain():
     d = increments(log(), 0.6).to_dict()
     assert isinstance(d["increments"][0]["ratio"], float)
     assert isinstance(d["increments"][0]["ok"], bool)
+
+
+def test_auger_lifted_before_the_log_starts_shows_an_empty_increment():
+    rows = [RigReading(0.0, 0, "drilling"), RigReading(4.0, 60, "drilling"),
+            RigReading(3.0, 100, "extraction", 0.0, concrete_pressure_kpa=100)]
+    vol = 0.0
+    for k in range(1, 7):
+        vol += 1.2 * AREA * 0.5
+        rows.append(RigReading(3.0 - 0.5 * k, 100 + 10 * k, "extraction", vol, concrete_pressure_kpa=100))
+    prof = increments(RigLog(tuple(rows)), 0.6)
+    c = check_increment_volume(prof)
+    assert c.ok is False and c.value == 0.0 and "3.50-4.00 m" in c.reason
+
+
+def test_log_stopping_below_the_cutoff_is_not_checked():
+    rows = [r for r in log().readings if r.depth_m >= 1.0]
+    prof = increments(RigLog(tuple(rows)), 0.6)
+    c = check_increment_volume(prof, cutoff_depth_m=0.5)
+    assert c.ok is None and "not covered" in c.reason

@@ -215,3 +215,19 @@ def test_toe_needs_elements():
 def test_checks_serialise_with_the_interface_keys():
     d = check_driving_set(rec(), CRIT).to_dict()
     assert set(d) == {"code", "value", "limit", "unit", "utilisation", "ok", "reason"}
+
+
+def test_from_dict_refuses_a_redrive_that_is_not_an_object():
+    with pytest.raises(ValueError, match="redrive"):
+        DrivingRecord.from_dict({"hammer": {"type": "drop"}, "redrive": [5]})
+
+
+@pytest.mark.parametrize("approach", ["working_stress", "limit_state"])
+@pytest.mark.parametrize("loads_are", ["working", "factored"])
+def test_demand_conversion_is_the_recheck_s(approach, loads_are):
+    # one meaning in one place: the driven and screw checks convert loads as the axial check does
+    from design_core.driving import axial_demand
+    from design_core.recheck import _axial_demand
+
+    rules = Rules(design_approach=approach, loads_are=loads_are, load_factor=1.4)
+    assert axial_demand(700.0, rules) == _axial_demand(700.0, rules)
