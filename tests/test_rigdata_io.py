@@ -2,9 +2,11 @@
 and a bad file is refused whole with every problem named by row and column."""
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from design_core import checks
-from design_core.cfa import CODES
+from design_core.cfa import CODES, RigLog, RigReading
 from fieldapp.rigdata_io import (
     RIG_COLUMNS, FileRejected, driving_csv, file_sha256, parse_driving_csv, parse_rig_csv,
     parse_torque_csv, rig_csv, torque_csv,
@@ -149,3 +151,35 @@ def test_driving_file_round_trip_and_errors():
     assert parse_driving_csv(driving_csv(f.from_depth_m, f.blows_per_250mm)).blows_per_250mm == (3, 5, 8)
     found, _ = errors_of(parse_driving_csv, "depth_m,blows\n1.0,3\n1.5,5\n1.75,2.5\n")
     assert (3, "depth_m") in found and (4, "blows") in found
+
+
+# --- any valid log survives export and import ----------------------------------------------------
+
+_pos = st.floats(min_value=0.0, max_value=2.0, allow_nan=False)
+
+
+@st.composite
+def rig_logs(draw):
+    n_drill = draw(st.integers(1, 8))
+    n_ext = draw(st.integers(1, 8))
+    z, t, vol, rev = 0.0, 0.0, 0.0, 0.0
+    rows = []
+    for k in range(n_drill + n_ext):
+        phase = "drilling" if k < n_drill else "extraction"
+        if k:
+            step = draw(_pos)
+            z = z + step if phase == "drilling" else max(0.0, z - step)
+            t += draw(_pos) * 30
+            vol += draw(_pos) if phase == "extraction" else 0.0
+            rev += draw(_pos) * 5
+        pressure = draw(st.none() | st.floats(-200, 10_000, allow_nan=False))
+        rows.append(RigReading(min(z, 100.0), t, phase, min(vol, 500.0), revolutions=rev,
+                               penetration_rate_m_per_min=draw(st.floats(-30, 30, allow_nan=False)),
+                               concrete_pressure_kpa=pressure))
+    return RigLog(tuple(rows))
+
+
+@settings(max_examples=60, deadline=None)
+@given(rig_logs())
+def test_any_valid_rig_log_exports_and_imports_the_same(log):
+    assert parse_rig_csv(rig_csv(log).encode()).log == log
