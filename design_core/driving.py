@@ -235,6 +235,15 @@ class DrivingCriterion:
         number("efficiency", self.efficiency, 0.05, 1.0, optional=True)
 
 
+def criterion_from_dict(data: Mapping[str, Any] | None) -> DrivingCriterion | None:
+    """A criterion from a schedule or group row (max_set_mm_per_10, energy_kj, source,
+    efficiency); None for an empty row. ValueError names the field for bad values."""
+    if not data:
+        return None
+    return DrivingCriterion(data.get("max_set_mm_per_10"), data.get("energy_kj"),
+                            data.get("source") or "", data.get("efficiency"))
+
+
 def criterion_from_rules(rules: Rules) -> DrivingCriterion | None:
     """The project's default criterion from the rules, or None when the rules set none (0)."""
     if rules.driving_set_max_mm_per_10 <= 0.0 or rules.driving_criterion_energy_kj <= 0.0:

@@ -28,6 +28,7 @@ from typing import Any, Iterable
 from design_core.axial import n_q
 from design_core.checks import Check
 from design_core.driving import axial_demand
+from design_core.ground import GroundModel
 from design_core.rules import Rules
 from design_core.validate import number
 
@@ -156,6 +157,45 @@ class HelixSoil:
         number("sigma_v_eff_kpa", self.sigma_v_eff_kpa, 0.0, 5000.0)
         number("cu_kpa", self.cu_kpa, 1.0, 2000.0, optional=self.material != "cohesive")
         number("phi_deg", self.phi_deg, 10.0, 50.0, optional=self.material != "cohesionless")
+
+
+def helix_list(items: Iterable[dict]) -> tuple[Helix, ...]:
+    """Helices from the record key ``helices`` (list of diameter_mm, pitch_mm, depth_m)."""
+    out = []
+    for k, item in enumerate(items):
+        if not isinstance(item, dict):
+            raise ValueError(f"helices[{k}] must have diameter_mm, pitch_mm and depth_m")
+        try:
+            out.append(Helix(item.get("diameter_mm"), item.get("pitch_mm"), item.get("depth_m")))
+        except ValueError as exc:
+            raise ValueError(f"helices[{k}]: {exc}") from None
+    return tuple(out)
+
+
+def helix_soils(ground: GroundModel, platform_level: float, helices: Iterable[Helix],
+                rules: Rules | None = None) -> tuple[HelixSoil, ...] | str:
+    """The soil at each helix from the ground model (level = platform_level - depth, m), or why
+    the bearing estimate cannot be made: a helix outside the model or in a rock or ignored
+    layer. sigma'_v from ``GroundModel.sigma_v_eff`` with the rules' gamma_w.
+    """
+    rules = rules or Rules()
+    if not isinstance(ground, GroundModel):
+        raise ValueError(f"ground must be a GroundModel, got {type(ground).__name__}")
+    plat = number("platform_level", platform_level, -10_000.0, 10_000.0)
+    out = []
+    for h in helices:
+        level = plat - h.depth_m
+        if not ground.bottom <= level <= ground.top:
+            return f"Helix at {h.depth_m:.2f} m (level {level:.2f} m) is outside the ground model"
+        layer = ground.layers[ground.layer_index_at(level)]
+        sig = float(ground.sigma_v_eff(level, rules.gamma_w))
+        if layer.material == "cohesive":
+            out.append(HelixSoil("cohesive", sig, cu_kpa=float(layer.cu_at(level))))
+        elif layer.material == "cohesionless":
+            out.append(HelixSoil("cohesionless", sig, phi_deg=layer.phi))
+        else:
+            return f"Helix at {h.depth_m:.2f} m is in a {layer.material} layer: no bearing estimate"
+    return tuple(out)
 
 
 @dataclass(frozen=True)

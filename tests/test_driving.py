@@ -231,3 +231,13 @@ def test_demand_conversion_is_the_recheck_s(approach, loads_are):
 
     rules = Rules(design_approach=approach, loads_are=loads_are, load_factor=1.4)
     assert axial_demand(700.0, rules) == _axial_demand(700.0, rules)
+
+
+def test_criterion_from_a_schedule_row():
+    from design_core.driving import criterion_from_dict
+
+    assert criterion_from_dict(None) is None
+    c = criterion_from_dict({"max_set_mm_per_10": 6, "energy_kj": 45, "source": "PDA test TP-1"})
+    assert c.max_set_mm_per_10 == 6 and c.source == "PDA test TP-1"
+    with pytest.raises(ValueError, match="source"):
+        criterion_from_dict({"max_set_mm_per_10": 6, "energy_kj": 45})

@@ -100,3 +100,23 @@ def test_bearing_in_sand_uses_nq_and_sigma_v():
 
 def test_no_load_is_ok():
     assert check_torque_capacity(LOG, 0.0, "square", 45).ok is True
+
+
+def test_helix_soils_from_the_ground_model():
+    from design_core.ground import GroundModel, Layer
+    from design_core.helical import helix_list, helix_soils
+
+    # platform +10.0 m; clay 18 kN/m3 to +4.0 m, sand 20 kN/m3 below; water at +10.0 (surface)
+    ground = GroundModel([Layer(10.0, 4.0, "cohesive", 18.0, cu=80.0),
+                          Layer(4.0, -10.0, "cohesionless", 20.0, phi=32.0)], water_level=10.0)
+    helices = helix_list([{"diameter_mm": 300, "pitch_mm": 75, "depth_m": 5.0},
+                          {"diameter_mm": 350, "pitch_mm": 75, "depth_m": 8.0}])
+    soils = helix_soils(ground, 10.0, helices)
+    # hand calculation: 5 m of clay under water: 5 x (18 - 9.81) = 40.95 kPa;
+    # at 8 m: 6 x 8.19 + 2 x (20 - 9.81) = 49.14 + 20.38 = 69.52 kPa
+    assert soils[0].material == "cohesive" and soils[0].cu_kpa == 80.0
+    assert soils[0].sigma_v_eff_kpa == pytest.approx(40.95)
+    assert soils[1].material == "cohesionless" and soils[1].sigma_v_eff_kpa == pytest.approx(69.52)
+    assert isinstance(helix_soils(ground, 10.0, [Helix(300, 75, 30.0)]), str)
+    with pytest.raises(ValueError, match=r"helices\[0\]"):
+        helix_list([{"diameter_mm": 5, "pitch_mm": 75, "depth_m": 1}])
