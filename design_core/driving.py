@@ -416,8 +416,8 @@ def gates_resistance(record: DrivingRecord, rules: Rules | None = None) -> Gates
     energy = record.hammer.rated_energy_kj
     if energy is None:
         return "Hammer energy not recorded (hammer energy_kj, or ram_kn and drop_m)"
-    if s <= 0.0:
-        return "Set 0 mm per 10 blows (refusal): the dynamic formula does not apply"
+    if s < 0.25:  # N_b above 1000 blows per 25 mm: refusal, beyond the formula's range
+        return f"Set {s:g} mm per 10 blows (refusal): the dynamic formula does not apply"
     n_b = blows_per_25mm(s)
     r_u = modified_gates(energy, n_b)
     if rules.design_approach == "limit_state":

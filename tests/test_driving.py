@@ -156,8 +156,9 @@ def test_resistance_with_no_load_is_ok_with_nothing_to_carry():
     assert c.ok is True and c.utilisation == 0.0
 
 
-def test_zero_set_is_not_checked_by_the_formula():
-    c = check_driving_resistance(rec(sets=(0, 0, 0)), 500.0)
+@pytest.mark.parametrize("sets", [(0, 0, 0), (0.2, 0.1, 0.2)])
+def test_refusal_set_is_not_checked_by_the_formula(sets):
+    c = check_driving_resistance(rec(sets=sets), 500.0)
     assert c.ok is None and "refusal" in c.reason
 
 
