@@ -161,8 +161,8 @@ def _pass_values(depths: np.ndarray, values: np.ndarray, z: np.ndarray, upward: 
 def _grid(deep: float, shallow: float, step: float) -> list[tuple[float, float]]:
     """Increments (top, bottom) from ``deep`` up to ``shallow`` (depths, m), deepest first."""
     edges = [deep]
-    while edges[-1] - step > shallow + 0.5 * step + _TOL:
-        edges.append(edges[-1] - step)
+    while deep - len(edges) * step > shallow + 0.5 * step + _TOL:
+        edges.append(deep - len(edges) * step)   # from the toe each time: no drift in the sum
     if edges[-1] - shallow > _TOL:
         edges.append(shallow)
     return [(edges[k + 1], edges[k]) for k in range(len(edges) - 1)]
