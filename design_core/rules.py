@@ -441,6 +441,98 @@ class Rules:
         12.0, "CSL: energy reduction above which a pair is a defect", "dB",
         "As csl_energy_anomaly_db (ASTM D6760 practice; from memory).", 0.0, 60.0)
 
+    # --- driven piles: the driving record (design_core.driving) ---------------------------
+    driving_set_max_mm_per_10: float = _rule(
+        0.0, "Driving criterion: most final set per 10 blows (project default)", "mm",
+        "Engineer's input from a wave-equation analysis or a dynamic test of the project; 0 means "
+        "no project default, so each pile or group must carry its own criterion (no safe generic "
+        "value exists).", 0.0, 200.0)
+    driving_criterion_energy_kj: float = _rule(
+        0.0, "Driving criterion: rated hammer energy per blow it was set for", "kJ",
+        "Engineer's input with driving_set_max_mm_per_10 (the energy of the analysis or test "
+        "that gave the set); 0 means not set.", 0.0, 2000.0)
+    driving_min_sets: int = _rule(
+        3, "Final sets measured for acceptance (the worst of the last ones governs)", "",
+        "Common practice: the set over the last 10 blows measured at least three times in "
+        "succession (ICE SPERW 2nd ed. and Tomlinson, Pile Design and Construction Practice, "
+        "set per 10 blows; secondary).", 1, 20)
+    driving_refusal_blows_per_250mm: float = _rule(
+        100.0, "Refusal: blows per 0.25 m above which driving is at refusal", "blows",
+        "About 10 blows per 25 mm (10 blows per inch) is often treated as practical refusal (a "
+        "US state DOT driven-pile manual, secondary; FHWA NHI-05-042 Hannigan et al. 2006, from "
+        "memory): 100 blows per 250 mm.", 10.0, 2000.0)
+    gates_phi: float = _rule(
+        0.40, "Resistance factor on the FHWA-modified Gates formula (limit state)", "",
+        "AASHTO LRFD Bridge Design Specifications Table 10.5.5.2.3-1, FHWA-modified Gates, end of "
+        "drive (from memory; ENR 0.10).", 0.05, 1.0)
+    gates_fs: float = _rule(
+        3.5, "Factor of safety on the FHWA-modified Gates formula (working stress)", "",
+        "FHWA NHI-05-042 (Hannigan et al. 2006), factor of safety 3.5 with the modified Gates "
+        "formula (from memory).", 1.0, 10.0)
+
+    # --- CFA piles: the rig's log (design_core.cfa) ------------------------------------------
+    cfa_increment_m: float = _rule(
+        0.5, "CFA depth increment for concrete volume and effective diameter", "m",
+        "FHWA GEC 8 (Brown, Dapp, Thompson & Lazarte 2007) ch. 7: automated monitoring records "
+        "volume against depth at intervals of about 0.6 m (2 ft) or less (secondary); 0.5 m is "
+        "common practice.", 0.1, 2.0)
+    cfa_increment_ratio_min: float = _rule(
+        1.0, "CFA increment volume ratio, lowest (placed/theoretical)", "",
+        "Common practice: concrete placed in every increment at least the auger's own volume; "
+        "FHWA GEC 8 (Brown et al. 2007) ch. 7 describes the increment-by-increment volume check "
+        "(secondary); the value 1.0 is common practice, not a GEC 8 limit.", 0.5, 2.0)
+    cfa_pressure_min_kpa: float = _rule(
+        0.0, "CFA concrete pressure during extraction, must exceed", "kPa",
+        "FHWA GEC 8 (Brown et al. 2007) ch. 7: a positive concrete pressure is kept at the auger "
+        "while it is withdrawn (secondary); 0 asks for a positive reading at every depth.",
+        -100.0, 2000.0)
+    cfa_revs_per_pitch_max_cohesive: float = _rule(
+        2.0, "CFA auger revolutions per pitch of penetration, most in clay", "rev",
+        "FHWA GEC 8 (Brown et al. 2007) ch. 7: 2-3 revolutions per pitch in clay (secondary); "
+        "the lower end is taken (conservative).", 1.0, 10.0)
+    cfa_revs_per_pitch_max_cohesionless: float = _rule(
+        1.5, "CFA auger revolutions per pitch of penetration, most in sand and gravel", "rev",
+        "FHWA GEC 8 (Brown et al. 2007) ch. 7: 1.5-2 revolutions per pitch in cohesionless soil "
+        "(secondary); the lower end is taken (conservative). Also used where the soil is not "
+        "known.", 1.0, 10.0)
+    cfa_integrity_test_fraction: float = _rule(
+        0.2, "Fraction of CFA piles to integrity-test", "",
+        "FHWA GEC 8 (Brown et al. 2007) section 7.5.1: 10-20 % of production piles (secondary); "
+        "the upper end is taken (conservative).", 0.0, 1.0)
+
+    # --- screw (helical) piles: installation torque (design_core.helical) -------------------
+    helical_kt_small_per_m: float = _rule(
+        33.0, "Torque factor K_t, square shafts and round shafts under 89 mm", "1/m",
+        "Hoyt & Clemence (1989) 10 ft^-1; ICC-ES AC358 default (secondary). The engineer "
+        "confirms with load tests.", 1.0, 100.0)
+    helical_kt_89_per_m: float = _rule(
+        23.0, "Torque factor K_t, 89 mm (3.5 in) round shafts", "1/m",
+        "Hoyt & Clemence (1989) 7 ft^-1; ICC-ES AC358 default (secondary).", 1.0, 100.0)
+    helical_kt_large_per_m: float = _rule(
+        9.8, "Torque factor K_t, round shafts larger than 89 mm", "1/m",
+        "Hoyt & Clemence (1989) 3 ft^-1 for 219 mm (8 5/8 in) round shafts (from memory); used "
+        "for every round shaft above 89 mm (conservative) unless the engineer gives K_t.",
+        1.0, 100.0)
+    helical_final_readings: int = _rule(
+        3, "Final torque: readings averaged", "",
+        "Common practice (ICC-ES AC358 style acceptance): the average of the last readings; "
+        "engineer to confirm.", 1, 20)
+    helical_final_length_m: float = _rule(
+        1.0, "Final torque: readings taken from the last length installed", "m",
+        "Common practice: the final torque over the last 1 m (about 3 ft) of installation.",
+        0.1, 5.0)
+    helical_fs: float = _rule(
+        2.0, "Factor of safety on torque-correlated capacity (working stress)", "",
+        "ICC-ES AC358: allowable = K_t T / 2 (from memory).", 1.0, 10.0)
+    helical_phi: float = _rule(
+        0.5, "Resistance factor on torque-correlated capacity (limit state)", "",
+        "Common practice, the reciprocal of the working-stress factor of 2 (no published "
+        "resistance factor confirmed); check against the project specification.", 0.1, 1.0)
+    helical_spacing_min_diameters: float = _rule(
+        3.0, "Helix spacing for individual bearing, least, in helix diameters", "D",
+        "Hoyt & Clemence (1989): helices 3 diameters or more apart act individually (secondary); "
+        "closer helices act as a cylinder.", 1.0, 10.0)
+
     def __post_init__(self):
         for f in fields(self):
             meta = f.metadata
