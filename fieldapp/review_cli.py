@@ -8,9 +8,14 @@ from __future__ import annotations
 
 import click
 
+from fieldapp import db
+from fieldapp.queries import audit, projects
+
 
 def register(main: click.Group) -> None:
     """Add ``verify-audit`` to the ``toeline`` command group."""
+    # fieldapp.cli imports this module while it loads (its _load_extra_commands): importing it
+    # back at the top would find it half made.
     from fieldapp.cli import _app, data_option
 
     @main.command("verify-audit")
@@ -19,9 +24,6 @@ def register(main: click.Group) -> None:
     @click.pass_context
     def verify_audit(ctx, data_dir, project_id):
         """Verify the audit hash chain of one project, or of every chain when no id is given."""
-        from fieldapp import db
-        from fieldapp.queries import audit, projects
-
         app = _app(ctx, data_dir)
         with app.app_context():
             conn = db.get_db()

@@ -2,7 +2,7 @@
 
 Every save is a new row; nothing is updated or deleted. ``piles.current_version`` names the
 newest version of a pile and is moved by :func:`set_pile_state` in the same transaction as the
-insert (see ``fieldapp.services.save_record``, the one save path).
+insert (see ``fieldapp.saving.save_record``, the one save path).
 """
 
 from __future__ import annotations
