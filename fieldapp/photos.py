@@ -250,8 +250,8 @@ def add_photo(conn: sqlite3.Connection, project_id: int, pile_row, user, client_
     sha = hashlib.sha256(data).hexdigest()
 
     def repeat() -> photos_q.Photo | None:
-        earlier = photos_q.by_client_id(conn, client_id)
-        if earlier is None or earlier.project_id != project_id:
+        earlier = photos_q.by_client_id(conn, project_id, client_id)
+        if earlier is None:
             return None
         if earlier.pile_id != pile_row.id:
             raise ValueError("client_id was already used for a photo of another pile: make a new one")

@@ -35,11 +35,13 @@ from wtforms.fields.choices import SelectChoice
 from wtforms.validators import DataRequired, Length
 
 from fieldapp import db, drawings
+from fieldapp.api import json_body
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.queries import audit, records, users
 from fieldapp.queries import review as review_q
 from fieldapp.queries import piles as piles_q
 from fieldapp.record import data as record_data
+from fieldapp.record_input import unicode_problem
 from fieldapp.signoff import MAX_REASONS, SignRefused, sign_pile
 
 bp = Blueprint("review", __name__)
@@ -98,9 +100,13 @@ def api_signoff(project_id: int, mark: str):
     conn = db.get_db()
     _pile_status_or_404(conn, project.id, mark)
     pile = piles_q.get_pile(conn, project.id, mark)
-    body = request.get_json(silent=True)
+    body = json_body()
     if not isinstance(body, dict):
         return _json(400, {"error": "the body must be a JSON object with disposition, reasons, password"})
+    errors = {name: problem for name in ("disposition", "reasons", "password")
+              if isinstance(body.get(name), str) and (problem := unicode_problem(body[name]))}
+    if errors:
+        return _json(422, {"errors": errors, "signed": False})
     try:
         if not _password_ok(conn, project.id, mark, body.get("password")):
             return _json(403, {"error": "wrong password", "signed": False})

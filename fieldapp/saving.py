@@ -161,8 +161,8 @@ def _repeat(conn: sqlite3.Connection, project_id: int, client_id: str, pile_row,
     """The earlier save of this project with ``client_id`` when this is a repeat of it (same
     pile, same record: the first answer again); None when the id is new in the project.
     ClientIdOfAnotherPile / ClientIdReused when it was used for another pile / another record."""
-    earlier = records.by_client_id(conn, client_id)
-    if earlier is None or earlier.project_id != project_id:
+    earlier = records.by_client_id(conn, project_id, client_id)
+    if earlier is None:
         return None
     if earlier.pile_id != pile_row.id:
         raise ClientIdOfAnotherPile("client_id was already used for a save of another pile: make a new one")
