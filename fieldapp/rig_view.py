@@ -28,6 +28,7 @@ from __future__ import annotations
 import math
 import sqlite3
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Any
 
 import numpy as np
@@ -155,8 +156,34 @@ class RequiredToe:
     reason: str
 
 
-def _design_at(ground, diameter, top, level, pile_type, rules) -> float:
-    return float(capacity_curve(ground, diameter, top, [level], pile_type, rules).design[0])
+@lru_cache(maxsize=512)   # a key holds its curve (about 25 kB): at most about 13 MB kept
+def _level_on(curve: CapacityCurve, demand: float, ground: GroundModel, diameter: float, top: float,
+              pile_type: str, rules: Rules) -> float | None:
+    """The required level read from ``curve`` (built on these ground, diameter, top, type and
+    rules) and confirmed by ``_confirmed_level``; None when the curve never reaches the demand.
+    Kept between calls (piles of one bundle share a curve and often a load); the curve is
+    keyed by identity, as it compares by identity (the cache holds it, so the identity stays
+    its own). ``clear_kept_levels`` empties both caches."""
+    level = required_toe_level(curve, demand)
+    if level is None:
+        return None
+    reaching = curve.toe_levels[(curve.toe_levels <= level) & (curve.design >= demand)]
+    deep = float(reaching.max()) if reaching.size else float(level)
+    return _confirmed_level(ground, diameter, top, pile_type, rules, demand, float(level), deep)
+
+
+@lru_cache(maxsize=4096)
+def _confirmed_level(ground: GroundModel, diameter: float, top: float, pile_type: str, rules: Rules,
+                     demand: float, level: float, deep: float) -> float:
+    """The highest of ``level`` and the levels below it every ``REFINE_TOL_M`` down to ``deep``
+    (a curve point that reaches ``demand``) where design_core's design resistance reaches the
+    demand: one capacity_curve call over the whole bracket. Kept between calls (the bundle asks
+    again for every pile of the same load); keyed by every input it reads."""
+    n = max(2, int(math.ceil((level - deep) / REFINE_TOL_M)) + 1)
+    grid = np.linspace(level, deep, n)
+    design = capacity_curve(ground, diameter, top, grid, pile_type, rules).design
+    reached = np.flatnonzero(design >= demand)
+    return float(grid[reached[0]]) if reached.size else float(deep)
 
 
 def required_toe_for(design: PileDesign, record: dict[str, Any] | None, ground: GroundModel,
@@ -168,8 +195,9 @@ def required_toe_for(design: PileDesign, record: dict[str, Any] | None, ground: 
     On the pile as built (``_geometry``) and the ground met (``_ground_met``). The level is
     read from the tablet's curve (``curve`` when it was built for these inputs, else built
     here) and then confirmed with design_core at that level: when the resistance there falls
-    short (a step in base resistance at a layer boundary, or rounding), the level is moved
-    down, by halving, until it is reached (to ``REFINE_TOL_M``, on the deep side).
+    short (a step in base resistance at a layer boundary, or the chord of a curving
+    resistance), the level is moved down to the first level, every ``REFINE_TOL_M``, where it
+    is reached (``_confirmed_level``): never shallower than design_core says.
 
     This is the single call site to switch to design_core's own required-toe function when it
     lands; every screen, the bundle and the preview take the level from here.
@@ -180,23 +208,11 @@ def required_toe_for(design: PileDesign, record: dict[str, Any] | None, ground: 
     curve = curve if curve is not None else tablet_curve(design, ground, rules, record)
     if curve is None:
         return RequiredToe(None, None, demand, "The ground model leaves no room below the cut-off")
-    level = required_toe_level(curve, demand)
-    if level is None:
-        return RequiredToe(None, None, demand, f"{demand:.0f} kN is not reached in the ground model")
     met = _ground_met(ground, record)
     diameter, top = _geometry(design, record)
-    if _design_at(met, diameter, top, level, design.pile_type, rules) < demand:
-        below = [float(z) for z in curve.toe_levels if z < level]
-        deep = max((z for z, d in zip(curve.toe_levels, curve.design, strict=True)
-                    if z < level and d >= demand), default=min(below) if below else level)
-        shallow = level
-        while shallow - deep > REFINE_TOL_M:
-            mid = 0.5 * (shallow + deep)
-            if _design_at(met, diameter, top, mid, design.pile_type, rules) >= demand:
-                deep = mid
-            else:
-                shallow = mid
-        level = float(deep)
+    level = _level_on(curve, demand, met, diameter, top, design.pile_type, rules)
+    if level is None:
+        return RequiredToe(None, None, demand, f"{demand:.0f} kN is not reached in the ground model")
     more = None
     asbuilt = asbuilt_from_record(record) if record else None
     if asbuilt is not None and asbuilt.toe_level is not None:
@@ -204,6 +220,12 @@ def required_toe_for(design: PileDesign, record: dict[str, Any] | None, ground: 
     where = "the ground met" if met is not ground else "the ground model"
     return RequiredToe(level, more, demand,
                        f"Design resistance reaches {demand:.0f} kN at {level:.2f} m on {where}")
+
+
+def clear_kept_levels() -> None:
+    """Forget the required levels kept between calls (``_level_on``, ``_confirmed_level``)."""
+    _level_on.cache_clear()
+    _confirmed_level.cache_clear()
 
 
 # --------------------------------------------------------------------------------------------

@@ -171,3 +171,27 @@ def test_limit_state_with_working_loads_required_toe_is_what_the_compression_che
                                           "cutoff_level": 9.0})
     axial = next(c for c in saved.get_json()["checks"] if c["code"] == "axial_compression")
     assert axial["ok"] is True and axial["value"] == pytest.approx(900.0)
+
+
+def test_kept_required_levels_equal_ones_made_from_nothing(app, limit_state_site):
+    """The required level kept between calls (rig_view._level_on) is the one worked out afresh,
+    and a changed input (the rules' load factor) gives the level of the changed input."""
+    from fieldapp import pile_inputs, rig_view
+
+    pid = limit_state_site["own"]
+    with app.app_context():
+        conn = db.get_db()
+        row = piles.get_pile(conn, pid, "L1")
+        design, ground = pile_inputs.pile_design(row), pile_inputs.load_ground(conn, row.ground_model_id)
+        rules = projects.current_rules(conn, pid).rules
+    curve = rig_view.tablet_curve(design, ground, rules)
+    kept = rig_view.required_toe_for(design, None, ground, rules, curve)
+    again = rig_view.required_toe_for(design, None, ground, rules, curve)
+    rig_view.clear_kept_levels()
+    fresh = rig_view.required_toe_for(design, None, ground, rules, curve)
+    assert kept == again == fresh
+    heavier = replace(rules, load_factor=1.8)
+    changed = rig_view.required_toe_for(design, None, ground, heavier, curve)
+    rig_view.clear_kept_levels()
+    assert changed == rig_view.required_toe_for(design, None, ground, heavier, curve)
+    assert changed.level_m < kept.level_m and changed.demand_kn == pytest.approx(600.0 * 1.8)
