@@ -27,6 +27,8 @@ from flask_wtf.csrf import CSRFProtect
 from werkzeug.middleware.proxy_fix import ProxyFix
 from werkzeug.routing import IntegerConverter
 
+from fieldapp import auth, db, security
+
 ROOT = Path(__file__).resolve().parent.parent
 csrf = CSRFProtect()
 
@@ -98,7 +100,6 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
     if test_config:
         app.config.update(test_config)
 
-    from fieldapp import auth, db, security
     app.before_request(_refuse_malformed_form)  # before CSRF, which fails on it with a 500
     db.init_app(app)
     auth.init_app(app)  # before CSRF: an API write with no session is a 401, not a CSRF 400

@@ -74,6 +74,7 @@ def record(project_id: int, mark: str):
     data["can_record"] = bool(g.user.can_record)
     data["urls"] = {
         "record": url_for("api.put_record", project_id=project.id, mark=pile.mark),
+        "preview": url_for("api.preview_record", project_id=project.id, mark=pile.mark),
         "photos": url_for("api.post_photo", project_id=project.id, mark=pile.mark),
         "photo_list": url_for("api.list_photos", project_id=project.id, mark=pile.mark),
         "pick": url_for("rig.pick", project_id=project.id),

@@ -433,6 +433,7 @@ def test_rig_page_embeds_its_data_as_json_and_no_inline_script(client, auth, sit
     assert data["mark"] == "B1" and data["version"] == 0
     assert data["required_toe_level"] == pytest.approx(site["need"], abs=0.02)
     assert data["urls"]["record"] == f"/api/v1/projects/{site['own']}/piles/B1/record"
+    assert data["urls"]["preview"] == f"/api/v1/projects/{site['own']}/piles/B1/preview"
     scripts = [s for s in html.split("<script")[1:]]
     assert all(' src="' in s.split(">")[0] or 'type="application/json"' in s.split(">")[0] for s in scripts)
     assert 'inputmode="decimal"' in html and "Caution" in html
