@@ -104,7 +104,11 @@ NUMBER_TEXT = st.sampled_from(["12,5", "12.5", "1,234.5", "NaN", "nan", "inf", "
 VALUE = st.recursive(
     st.one_of(st.none(), st.booleans(), st.integers(min_value=-10**20, max_value=10**20),
               st.floats(allow_nan=True, allow_infinity=True), NUMBER_TEXT,
-              st.text(max_size=30), st.text(min_size=4001, max_size=4100)),
+              st.text(max_size=30), st.text(min_size=4001, max_size=4100),
+              # integers beyond any float (10^400) and text no UTF-8 can hold (lone surrogates)
+              st.sampled_from([10**400, -(10**401), 2**64]),
+              st.builds(lambda a, b: a + b, st.text(max_size=5),
+                        st.sampled_from(["\ud800", "\udfff", "x\ud83d"]))),
     lambda inner: st.one_of(st.lists(inner, max_size=3),
                             st.dictionaries(st.sampled_from(["docket", "volume_m3", "batched_at", "from_depth",
                                                              "to_depth", "material", "x"]), inner, max_size=4)),
