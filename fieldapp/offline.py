@@ -1,6 +1,6 @@
 """Offline: the service worker, the web app manifest, the project bundle and the site CA page.
 
-PRODUCT.md section 9. Routes (blueprint ``offline``):
+Routes (blueprint ``offline``):
 
 * ``GET /sw.js``: ``static/sw.js`` with its cache version (a hash of every static file, so any
   change to the app shell makes a new worker) and the list of static files filled in; served

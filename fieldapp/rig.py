@@ -1,4 +1,4 @@
-"""At the rig: the inspector's screen on the tablet (PRODUCT.md sections 4, 9; issue 5).
+"""At the rig: the inspector's screen on the tablet (issue 5).
 
 * ``GET /projects/<id>/rig`` (``rig.pick``): find a pile by mark, or take the nearest planned
   pile to where the rig last was (the pile saved most recently) or to a typed position.

@@ -1,5 +1,5 @@
 """The audit trail is tamper-evident: an edited, a deleted or a reordered row breaks the chain, and
-``toeline verify-audit`` exits 1 naming the first broken entry (issue 6, PRODUCT.md section 7).
+``toeline verify-audit`` exits 1 naming the first broken entry (issue 6).
 
 Tampering is simulated as an attacker with the database file would do it: drop the append-only
 triggers with sqlite3, then change rows directly.

@@ -40,7 +40,8 @@ def test_cap_mate_whose_status_changes_gets_a_new_version_naming_the_mover(app, 
     put(client, auth, site["own"], "A2", full_record(site, "A2"))
     v0, verdict0, _ = _state(app, site["own"], "A2")
     # a large survey error on A1 puts A2 well off the centroid: A2's share rises past its
-    # resistance (hand check: the cap load acts at the design centroid, REFERENCES.md section 11)
+    # resistance (hand check with the rigid-cap rule N/n + M x / sum x^2, the cap load acting at the design
+    # centroid)
     put(client, auth, site["own"], "A1", full_record(site, "A1", easting=502.0))
     v1, verdict1, current = _state(app, site["own"], "A2")
     share = next(c for c in current.checks if c["code"] == "group_share")

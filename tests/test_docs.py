@@ -1,4 +1,4 @@
-"""Every check code and every rule is documented (STYLE.md guidance 13)."""
+"""Every check code and every rule is documented."""
 
 from pathlib import Path
 

@@ -1,4 +1,4 @@
-"""Lint runs with the tests (STYLE.md guidance 14): ruff over the whole tree."""
+"""Lint runs with the tests: ruff over the whole tree."""
 
 import shutil
 import subprocess

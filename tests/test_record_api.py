@@ -325,7 +325,7 @@ def test_position_off_moves_the_caps_shares(app, client, auth, site):
     position = next(c for c in body["checks"] if c["code"] == "position")
     assert position["ok"] is False and position["value"] == pytest.approx(500, abs=15)
     assert body["verdict"] == "needs engineer"
-    # Rigid cap, N/n + M.x/sum(x^2) (PRODUCT.md section 5): as built the piles stand at
+    # Rigid cap, N/n + M.x/sum(x^2): as built the piles stand at
     # x = -0.65 and +0.65 m about their centroid 501.15 m, the cap load (1800 kN) acts at the
     # design centroid 500.9 m, so M = 1800 x (500.9 - 501.15) = -450 kNm and A1 takes
     # 900 + (-450)(-0.65)/(2 x 0.65^2) = 1246.2 kN instead of 900 kN (hand calculation).

@@ -1,4 +1,4 @@
-"""Caps (pile groups) and their loads: N, Mx, My (kN, kNm) and Hx, Hy (kN) (PRODUCT.md section 3).
+"""Caps (pile groups) and their loads: N, Mx, My (kN, kNm) and Hx, Hy (kN).
 
 ``cap_loads`` and ``cap_pile_positions`` give the stored rows that ``fieldapp.pile_inputs.cap_group``
 turns into the ``design_core.inputs.CapGroup`` the group check shares loads over.

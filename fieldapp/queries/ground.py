@@ -1,4 +1,4 @@
-"""Ground models and their layers (PRODUCT.md section 3).
+"""Ground models and their layers.
 
 Stored rows come back as small frozen dataclasses (``fieldapp.pile_inputs.ground_model`` turns
 one into the ``design_core.ground.GroundModel`` the checks take). ``save_model`` stores layers

@@ -1,4 +1,4 @@
-"""The pile schedule (PRODUCT.md section 3): one row per pile, design values and its progress.
+"""The pile schedule: one row per pile, design values and its progress.
 
 ``PileRow`` carries every stored column plus the cap mark and ground model name
 (``fieldapp.pile_inputs.pile_design`` turns a row into the ``PileDesign`` the checks take).
