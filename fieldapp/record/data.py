@@ -88,7 +88,9 @@ def pile_figures(conn: sqlite3.Connection, project_id: int, pile, record: dict[s
     load = _finite(axial.value) if axial is not None and axial.value else None
     if load is None and design.compression > 0:
         load = design.compression
-    required = rig_view.required_toe_for(design, record, inputs.ground, inputs.rules).level_m
+    # the recheck's curve was built on the same as-built pile and ground met: read from it
+    required = rig_view.required_toe_for(design, record, inputs.ground, inputs.rules,
+                                         details.get("curve")).level_m
     asbuilt_toe = None
     if record.get("platform_level") is not None and record.get("measured_depth") is not None:
         asbuilt_toe = record["platform_level"] - record["measured_depth"]
