@@ -2,11 +2,14 @@
 
 ``create_app(test_config=None)`` builds the app on a data folder (``TOELINE_DATA``, default
 ``./toeline-data``) that holds the SQLite database, the photos and the secret key made on
-first start. Blueprints are registered here, one per screen (PRODUCT.md section 12).
+first start. The blueprints are registered here from one explicit list, ``BLUEPRINTS`` (one
+per screen, plus the API, the offline files and the API description); a module of the list
+that cannot be imported stops the start with an error naming it.
 """
 
 from __future__ import annotations
 
+import importlib
 import os
 import secrets
 from datetime import timedelta
@@ -19,12 +22,18 @@ from pathlib import Path
 # with one. An operator may still override it in the environment.
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
-from flask import Flask
+from flask import Blueprint, Flask, abort, request
 from flask_wtf.csrf import CSRFProtect
+from werkzeug.middleware.proxy_fix import ProxyFix
 from werkzeug.routing import IntegerConverter
+
+from fieldapp import auth, db, security
 
 ROOT = Path(__file__).resolve().parent.parent
 csrf = CSRFProtect()
+
+# Every blueprint of the app, in registration order (modules under fieldapp/).
+BLUEPRINTS = ("piles", "ground", "rules", "rig", "review", "record.views", "api", "offline", "openapi")
 
 CAUTION = (
     "Caution: Toeline's checks aid a competent engineer; they do not replace the engineer of "
@@ -86,14 +95,11 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
     if os.environ.get("TOELINE_PROXY") == "1":
         # Behind a TLS-terminating reverse proxy (deploy/): trust one hop of X-Forwarded-*
         # and send the session cookie over HTTPS only.
-        from werkzeug.middleware.proxy_fix import ProxyFix
-
         app.wsgi_app = ProxyFix(app.wsgi_app, x_for=1, x_proto=1, x_host=1)
         app.config["SESSION_COOKIE_SECURE"] = True
     if test_config:
         app.config.update(test_config)
 
-    from fieldapp import auth, db, security
     app.before_request(_refuse_malformed_form)  # before CSRF, which fails on it with a 500
     db.init_app(app)
     auth.init_app(app)  # before CSRF: an API write with no session is a 401, not a CSRF 400
@@ -108,29 +114,30 @@ def create_app(test_config: dict | None = None, data_dir: str | Path | None = No
     def healthz():
         return {"ok": True}
 
-    for module in ("piles", "ground", "rules", "rig", "review", "record.views", "api", "offline", "openapi"):
-        _register_if_present(app, module)
+    register_blueprints(app, app.config.get("BLUEPRINTS", BLUEPRINTS))
     return app
 
 
 def _refuse_malformed_form():
     """400 for a form field whose name werkzeug cannot read (a line break in a multipart header
     makes the name None, and Flask-WTF's CSRF check then raises)."""
-    from flask import abort, request
-
     if request.mimetype in ("multipart/form-data", "application/x-www-form-urlencoded") and (
             None in request.form or None in request.files):
         abort(400, "a form field has a name that cannot be read")
 
 
-def _register_if_present(app: Flask, name: str) -> None:
-    """Register ``fieldapp.<name>.bp`` when that screen's module exists."""
-    import importlib
+def register_blueprints(app: Flask, names: tuple[str, ...] = BLUEPRINTS) -> None:
+    """Register ``fieldapp.<name>.bp`` for every name, in order. A module that is missing or
+    has no blueprint raises RuntimeError naming it: a screen never goes missing silently.
 
-    try:
-        module = importlib.import_module(f"fieldapp.{name}")
-    except ModuleNotFoundError as exc:
-        if exc.name == f"fieldapp.{name}":
-            return
-        raise
-    app.register_blueprint(module.bp)
+    The modules are imported here, at app build time, because each imports this package (its
+    ``CAUTION`` and the extensions) and so cannot be imported before it."""
+    for name in names:
+        try:
+            module = importlib.import_module(f"fieldapp.{name}")
+        except ModuleNotFoundError as exc:
+            raise RuntimeError(f"blueprint module fieldapp.{name} is missing: {exc}") from exc
+        blueprint = getattr(module, "bp", None)
+        if not isinstance(blueprint, Blueprint):
+            raise RuntimeError(f"fieldapp.{name} has no blueprint named bp")
+        app.register_blueprint(blueprint)

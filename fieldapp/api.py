@@ -6,19 +6,29 @@ Routes (all need the session cookie; writes also the ``X-CSRFToken`` header):
 * ``GET  /projects`` -> ``{"projects": [{"id", "name", "site"}]}``
 * ``GET  /projects/<id>/piles`` -> ``{"project", "piles": [...design values, progress, verdict,
   version...]}``
-* ``GET  /projects/<id>/piles/<mark>`` -> the rig data of one pile (``services.rig_data``)
+* ``GET  /projects/<id>/piles/<mark>`` -> the rig data of one pile (``rig_view.rig_data``)
 * ``PUT  /projects/<id>/piles/<mark>/record`` with ``{"client_id", "base_version", "record"}``
-  -> 200 ``{"version", "verdict", "checks", ...}``; same client_id -> same answer;
-  409 ``{"error": "conflict", "server": {...}}``; 422 ``{"errors": {field: message}}``
+  -> 200 ``{"version", "verdict", "checks", ...}``; same client_id and record -> same answer;
+  same client_id with another record (client ids are kept per project) -> 409
+  ``{"error": "client_id reused"}``, for another pile 422; 409 ``{"error": "conflict", "server": {...}}``;
+  409 ``{"error": "locked"}`` (a signed version changed without an amendment);
+  422 ``{"errors": {field: message}}``
+* ``POST /projects/<id>/piles/<mark>/preview`` with ``{"record": {...}}`` (the PUT's body; other
+  keys are ignored) -> 200 ``{"verdict", "checks", "required_toe_level", "more_needed_m", ...}``:
+  the recheck a save would make (design_core on the as-built pile and the strata met), nothing
+  stored, no version, no audit entry; 422 as the PUT. Access as the PUT (viewer 403).
 * ``GET  /projects/<id>/piles/<mark>/history`` -> ``{"mark", "versions": [...]}``
 * ``POST /projects/<id>/piles/<mark>/photos`` (multipart ``file``, ``client_id``, ``kind``,
-  ``caption``) -> 201 ``{"id", "sha256"}`` (200 with the same body on a repeat)
+  ``caption``) -> 201 ``{"id", "sha256"}`` (200 with the same body on a repeat; another photo
+  of the pile with the same client_id -> 409 ``{"error": "client_id reused"}``, for another pile
+  422)
 * ``GET  /projects/<id>/piles/<mark>/photos`` -> ``{"photos": [...]}``
 * ``GET  /projects/<id>/photos/<photo_id>/<size>`` size ``thumb``, ``display`` or
   ``original``: the image file (members only).
 
 Access: not signed in 401; not a member of the project 404 (the project's existence is not
-revealed); a viewer writing 403.
+revealed); a viewer writing 403. A body that is not JSON, or is nested too deeply to read, is a
+400.
 """
 
 from __future__ import annotations
@@ -26,20 +36,23 @@ from __future__ import annotations
 import json
 import re
 from dataclasses import dataclass
+from typing import Any
 
 try:
     import orjson
 except ModuleNotFoundError:  # optional speed-up of the pile list; jsonify does the same job
     orjson = None
-from flask import Blueprint, abort, current_app, g, jsonify, request, send_file
+from flask import Blueprint, abort, current_app, g, jsonify, request, send_file, url_for
 from flask_wtf.csrf import CSRFError, generate_csrf
+from PIL import Image
 from werkzeug.exceptions import HTTPException, RequestEntityTooLarge
 
-from fieldapp import db, photos, services
+from fieldapp import db, photos, rig_view, saving
 from fieldapp.auth import _deny, login_required, project_or_404
 from fieldapp.queries import photos as photos_q
 from fieldapp.queries import piles as piles_q
 from fieldapp.queries import audit, projects, records
+from fieldapp.record_input import RecordInvalid
 
 bp = Blueprint("api", __name__, url_prefix="/api/v1")
 
@@ -83,6 +96,15 @@ def _pile_or_404(project_id: int, mark: str):
 def _may_record() -> None:
     if not g.user.can_record:
         _deny(403)
+
+
+def json_body() -> Any:
+    """The request's JSON body, or None when it is not JSON or cannot be read (nesting deeper
+    than the parser's recursion limit raises RecursionError, which is a bad body, not a 500)."""
+    try:
+        return request.get_json(silent=True)
+    except RecursionError:
+        return None
 
 
 def pile_summary(pile: piles_q.PileRow) -> dict:
@@ -196,7 +218,7 @@ def _pile_list(conn, project) -> tuple[bytes, str]:
 def show_pile(project_id: int, mark: str):
     """One pile with its newest record, capacity curve and limits (the rig page's data)."""
     project, pile = _pile_or_404(project_id, mark)
-    return jsonify(services.rig_data(db.get_db(), project.id, pile))
+    return jsonify(rig_view.rig_data(db.get_db(), project.id, pile))
 
 
 @bp.put("/projects/<int:project_id>/piles/<mark>/record")
@@ -205,7 +227,7 @@ def put_record(project_id: int, mark: str):
     """Save a new version of the pile's as-built record and recheck it (module docstring)."""
     project, pile = _pile_or_404(project_id, mark)
     _may_record()
-    body = request.get_json(silent=True)
+    body = json_body()
     if not isinstance(body, dict):
         return _error(400, error="the body must be a JSON object with client_id, base_version, record")
     client_id = body.get("client_id")
@@ -217,21 +239,40 @@ def put_record(project_id: int, mark: str):
         return _error(422, errors={"amendment": "must be an object with a reason"})
     conn = db.get_db()
     try:
-        outcome = services.save_record(conn, project.id, pile, g.user, client_id,
-                                       body.get("base_version"), body.get("record"), amendment)
-    except services.RecordInvalid as exc:
+        outcome = saving.save_record(conn, project.id, pile, g.user, client_id,
+                                     body.get("base_version"), body.get("record"), amendment)
+    except RecordInvalid as exc:
         return _error(422, errors=exc.errors)
-    except services.ClientIdReused as exc:
+    except saving.ClientIdOfAnotherPile as exc:
         return _error(422, errors={"client_id": str(exc)})
-    except services.RecordConflict as exc:
+    except saving.ClientIdReused:
+        return _error(409, error="client_id reused",
+                      message="this client_id was used for another save: make a new one")
+    except saving.RecordConflict as exc:
         server = exc.current.to_dict() if exc.current else {"version": exc.stored_version}
         return _error(409, error="conflict", server=server,
                       message=f"the record was changed on the server (now version {exc.stored_version})")
-    except services.PileLocked as exc:
+    except saving.PileLocked as exc:
         current = records.current(conn, pile.id)
         return _error(409, error="locked", message=str(exc),
                       server=current.to_dict() if current else {})
     return jsonify(outcome.answer())
+
+
+@bp.post("/projects/<int:project_id>/piles/<mark>/preview")
+@login_required
+def preview_record(project_id: int, mark: str):
+    """The recheck a save of this record would make, storing nothing (module docstring)."""
+    project, pile = _pile_or_404(project_id, mark)
+    _may_record()
+    body = json_body()
+    if not isinstance(body, dict):
+        return _error(400, error="the body must be a JSON object with record")
+    try:
+        answer = rig_view.preview(db.get_db(), project.id, pile, body.get("record"))
+    except RecordInvalid as exc:
+        return _error(422, errors=exc.errors)
+    return jsonify(answer)
 
 
 @bp.get("/projects/<int:project_id>/piles/<mark>/record")
@@ -256,7 +297,6 @@ def history(project_id: int, mark: str):
 
 def photo_dict(project_id: int, photo: photos_q.Photo) -> dict:
     """A photo as the API lists it, with the addresses of its files."""
-    from flask import url_for
     out = photo.to_dict()
     for size in SIZES:
         out[f"{size}_url"] = url_for("api.photo_file", project_id=project_id, photo_id=photo.id,
@@ -287,6 +327,9 @@ def post_photo(project_id: int, mark: str):
     except photos.PhotoRejected as exc:
         field = "kind" if str(exc).startswith("kind") else "caption" if str(exc).startswith("caption") else "file"
         return _error(422, errors={field: str(exc)})
+    except photos.ClientIdReused:
+        return _error(409, error="client_id reused",
+                      message="this client_id was used for another photo: make a new one")
     except ValueError as exc:
         return _error(422, errors={"client_id": str(exc)})
     body = {"id": photo.id, "sha256": photo.sha256,
@@ -326,5 +369,4 @@ def photo_file(project_id: int, photo_id: int, size: str):
 
 def _mimetype(fmt: str) -> str:
     """The MIME type of a stored original by its Pillow format name."""
-    from PIL import Image
     return Image.MIME.get(fmt, "application/octet-stream")

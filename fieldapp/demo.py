@@ -17,6 +17,12 @@ import math
 
 import numpy as np
 
+from design_core.axial import capacity_curve, required_toe_level
+from design_core.group import group_shares
+from fieldapp import db, demo_records
+from fieldapp.pile_inputs import load_ground, store_ground_model
+from fieldapp.queries import audit, caps, piles, projects, users
+
 LOGINS = [
     ("admin@toeline.example", "admin", "demo-admin-1"),
     ("engineer@toeline.example", "engineer", "demo-engineer-1"),
@@ -124,8 +130,6 @@ def design_toe(ground, diameter_m: float, cutoff_m: float, pile_type: str, load_
     Uses ``design_core.axial.capacity_curve`` and ``required_toe_level`` with the project's
     rules; raises ValueError when the ground model is too shallow for the load.
     """
-    from design_core.axial import capacity_curve, required_toe_level
-
     toes = np.arange(cutoff_m - 0.5, ground.bottom + 1e-9, -0.05)
     curve = capacity_curve(ground, diameter_m, cutoff_m, toes, pile_type, rules)
     need = required_toe_level(curve, load_kn)
@@ -147,8 +151,6 @@ def schedule(ground_models: list, rules) -> list[tuple[dict, list[dict]]]:
     Pile values use the stored-column names of queries.piles.WRITE_COLUMNS, with
     ``ground_index`` and ``cap_mark`` in place of the ids.
     """
-    from design_core.group import group_shares
-
     out = []
     number = 0
     for (mark, gi, n, ptype, d_mm, cutoff, (N, mx, my, hx, hy), (ce, cn),
@@ -180,9 +182,6 @@ def schedule(ground_models: list, rules) -> list[tuple[dict, list[dict]]]:
 
 def build(app) -> int:
     """Create the demo users, project, ground models, caps and piles; returns the project id."""
-    from fieldapp import db, demo_records
-    from fieldapp.queries import audit, caps, ground, piles, projects, users
-
     conn = db.get_db()
     with db.write(conn):
         pid = projects.create(conn, PROJECT["name"], PROJECT["site"], PROJECT["datum"],
@@ -193,9 +192,9 @@ def build(app) -> int:
         rules = projects.current_rules(conn, pid).rules
         gm_ids, gm_design = [], []
         for name, description, water, layers in GROUND_MODELS:
-            gm_id = ground.save_model(conn, pid, name, water, layers, description)
+            gm_id = store_ground_model(conn, pid, name, water, layers, description)
             gm_ids.append(gm_id)
-            gm_design.append(ground.load_ground_model(conn, gm_id))
+            gm_design.append(load_ground(conn, gm_id))
         count = 0
         for cap, pile_list in schedule(gm_design, rules):
             cap_id = caps.save_cap(conn, pid, cap["mark"], cap)
@@ -207,5 +206,5 @@ def build(app) -> int:
                 count += 1
         audit.append(conn, pid, "demo", "demo project created", PROJECT["name"],
                      {"piles": count, "caps": len(CAPS), "ground_models": len(gm_ids)})
-    demo_records.add_records(app, pid)  # as-built records and photos through the save path
+    demo_records.add_records(app, pid, LOGINS[2][0])  # as-built records and photos through the save path
     return pid

@@ -1,7 +1,7 @@
 """As-built records and photos for the demo project, made through the app's own save path.
 
-``add_records(app, project_id=None)`` gives about half the demo piles a record saved with
-``services.save_record`` (validation, recheck, version, audit entry: exactly what a tablet's
+``add_records(app, project_id, inspector_email)`` gives about half the demo piles a record
+saved with ``saving.save_record`` (validation, recheck, version, audit entry: exactly what a tablet's
 save does) and one or two photos through ``photos.add_photo``. Most are built as designed and
 meet design; one pile each is short on:
 
@@ -23,7 +23,16 @@ import math
 import uuid
 from datetime import datetime, timedelta
 
+from flask import has_app_context
 from PIL import Image, ImageDraw, ImageFont
+
+from fieldapp import db, photos
+from fieldapp.pile_inputs import load_ground, pile_design
+from fieldapp.queries import piles as piles_q
+from fieldapp.queries import projects, users
+from fieldapp.queries.caps import natural_key
+from fieldapp.rig_view import required_toe_for
+from fieldapp.saving import save_record
 
 NAMESPACE = uuid.UUID("7f1c2a52-3d4e-4b8a-9c61-5e0f2b7d9a10")  # fixed, so ids repeat run to run
 START = datetime(2026, 3, 2, 7, 30)
@@ -123,33 +132,19 @@ def drawn_photo(mark: str, kind: str, taken: datetime) -> bytes:
     return out.getvalue()
 
 
-def add_records(app, project_id: int | None = None) -> dict:
-    """Record about half the demo piles through the save path; returns counts by verdict.
+def add_records(app, project_id: int, inspector_email: str) -> dict:
+    """Record about half the demo piles of ``project_id`` through the save path, as the user
+    ``inspector_email``; returns counts by verdict.
 
-    ``project_id`` defaults to the demo project (by name). Runs inside an app context (made
-    here when there is none). Piles already recorded are left alone, so a second call adds
-    nothing.
+    Runs inside an app context (made here when there is none). Piles already recorded are left
+    alone, so a second call adds nothing.
     """
-    from flask import has_app_context
-
     if not has_app_context():
         with app.app_context():
-            return add_records(app, project_id)
-
-    from design_core.axial import required_toe_level
-    from fieldapp import db, demo, photos, services
-    from fieldapp.queries import ground as ground_q
-    from fieldapp.queries import piles as piles_q
-    from fieldapp.queries import projects, users
-    from fieldapp.queries.caps import natural_key
+            return add_records(app, project_id, inspector_email)
 
     conn = db.get_db()
-    if project_id is None:
-        match = [p for p in projects.all_projects(conn) if p.name == demo.PROJECT["name"]]
-        if not match:
-            raise LookupError("the demo project does not exist: build it first")
-        project_id = match[0].id
-    inspector = users.by_email(conn, demo.LOGINS[2][0])
+    inspector = users.by_email(conn, inspector_email)
     rules = projects.current_rules(conn, project_id).rules
     all_piles = sorted(piles_q.list_piles(conn, project_id), key=lambda p: natural_key(p.mark))
     chosen = [p for i, p in enumerate(all_piles) if i % 2 == 0]
@@ -178,16 +173,15 @@ def add_records(app, project_id: int | None = None) -> dict:
     for i, pile in enumerate(chosen):
         if pile.current_version:
             continue
-        ground = ground_q.load_ground_model(conn, pile.ground_model_id)
+        ground = load_ground(conn, pile.ground_model_id)
         platform = round(ground.top, 2)
         start = START + timedelta(days=i // 5, minutes=95 * (i % 5))
         need = None
         fault = faults.get(pile.mark)
         if fault == "toe":
-            curve = services.pile_curve(conn, pile, rules)
-            need = required_toe_level(curve, pile.compression_kn) if curve is not None else None
+            need = required_toe_for(pile_design(pile), None, ground, rules).level_m
         record = record_for(pile, platform, rules, start, fault, need, partial.get(pile.mark, "logged"))
-        outcome = services.save_record(conn, project_id, pile, inspector, _client_id(pile.mark, "record", 1),
+        outcome = save_record(conn, project_id, pile, inspector, _client_id(pile.mark, "record", 1),
                                        None, record)
         verdict = outcome.version.verdict
         counts[verdict] = counts.get(verdict, 0) + 1

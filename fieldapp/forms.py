@@ -313,7 +313,7 @@ class GroundModelForm(FlaskForm):
         """Field ranges, then per layer: what its material needs, top above bottom, then the
         layers contiguous from the top down; finally design_core's GroundModel as a backstop."""
         from design_core.ground import GroundModel
-        from fieldapp.queries.ground import layer_from_values
+        from fieldapp.pile_inputs import layer_from_values
 
         ok = super().validate(extra_validators)
         rows = [(i, e.form) for i, e in enumerate(self.layers, start=1) if not e.form.is_blank()]

@@ -10,7 +10,7 @@ from __future__ import annotations
 from flask import Blueprint, abort, flash, g, redirect, render_template, request, url_for
 from markupsafe import Markup, escape
 
-from fieldapp import db, services
+from fieldapp import db, pile_inputs, saving
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.forms import GroundModelForm, fmt_number
 from fieldapp.piles import flash_rechecked
@@ -167,13 +167,13 @@ def _save(project, model: GroundModelRow | None):
             return render_template("ground_form.html", project=project, form=form, model=model), 400
         try:
             with db.write(conn):
-                model_id = ground.save_model(conn, project.id, name, form.water_level_m.data, layers,
+                model_id = pile_inputs.store_ground_model(conn, project.id, name, form.water_level_m.data, layers,
                                              (form.description.data or "").strip(),
                                              model.id if model else None)
                 audit.append(conn, project.id, g.user.email, "ground model saved", name, {
                     "ground_model_id": model_id, "new": model is None,
                     "water_level_m": form.water_level_m.data, "layers": layers})
-                moved = services.recheck_stored(
+                moved = saving.recheck_stored(
                     conn, project.id, piles_q.list_piles(conn, project.id, ground_model_id=model_id),
                     g.user, f"rechecked on ground model {name} as changed")
         except ValueError as exc:

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from flask import Blueprint, jsonify
 
+from design_core.checks import MEETS_DESIGN, NEEDS_ENGINEER
+
 bp = Blueprint("openapi", __name__)
 
 NUMBER = {"type": ["number", "string", "null"],
@@ -47,6 +49,7 @@ CHECK = {"type": "object", "properties": {
     "utilisation": {"type": ["number", "null"]}, "ok": {"type": ["boolean", "null"]},
     "reason": {"type": "string"}}}
 
+VERDICT = {"type": "string", "enum": [MEETS_DESIGN, NEEDS_ENGINEER]}
 ERROR = {"type": "object", "properties": {"error": {"type": "string"}}}
 ERRORS = {"type": "object", "properties": {"errors": {"type": "object",
                                                       "additionalProperties": {"type": "string"}}}}
@@ -120,13 +123,36 @@ def document() -> dict:
                 "responses": {
                     "200": _json({"type": "object", "properties": {
                         "version": {"type": "integer"},
-                        "verdict": {"type": "string", "enum": ["meets design", "needs engineer"]},
+                        "verdict": VERDICT,
                         "checks": {"type": "array", "items": CHECK}}}, "saved and rechecked"),
                     "400": BAD_REQUEST, **STORAGE,
                     "409": _json({"type": "object", "properties": {
-                        "error": {"type": "string", "enum": ["conflict", "locked"]},
-                        "server": {"type": "object"}}}, "changed on the server, or signed"),
+                        "error": {"type": "string", "enum": ["conflict", "locked", "client_id reused"]},
+                        "server": {"type": "object"}}},
+                        "changed on the server, signed, or the client_id was used for another record"),
                     "422": _json(ERRORS, "invalid fields, nothing saved"), **DENIED}}},
+            "/api/v1/projects/{project_id}/piles/{mark}/preview": {"post": {
+                "summary": "the recheck a save of this record would make (design_core on the as-built "
+                           "pile and the strata met); nothing stored, no version, no audit entry",
+                "parameters": [PROJECT_ID, MARK],
+                "security": [{"session": [], "csrf": []}],
+                "requestBody": {"required": True, "content": {"application/json": {"schema": {
+                    "type": "object", "required": ["record"], "properties": {
+                        "record": RECORD, "client_id": CLIENT_ID,
+                        "base_version": {"type": ["integer", "null"]},
+                        "amendment": {"type": "object", "properties": {"reason": TEXT}}}}}}},
+                "responses": {
+                    "200": _json({"type": "object",
+                                  "required": ["verdict", "checks", "required_toe_level", "more_needed_m"],
+                                  "properties": {
+                                      "verdict": VERDICT,
+                                      "checks": {"type": "array", "items": CHECK},
+                                      "required_toe_level": {"type": ["number", "null"]},
+                                      "more_needed_m": {"type": ["number", "null"]}}},
+                                 "what the save would answer (required toe level and how much "
+                                 "deeper than the recorded toe, in m)"),
+                    "400": BAD_REQUEST,
+                    "422": _json(ERRORS, "invalid fields (as the record PUT)"), **DENIED}}},
             "/api/v1/projects/{project_id}/piles/{mark}/photos": {"post": {
                 "summary": "add a photo (multipart)",
                 "parameters": [PROJECT_ID, MARK],
@@ -145,6 +171,7 @@ def document() -> dict:
                         "id": {"type": "integer"}, "sha256": {"type": "string"}}},
                         "a repeat of a client_id already stored: the first answer"),
                     "400": BAD_REQUEST, **STORAGE,
+                    "409": _json(ERROR, "the client_id was used for another photo of the pile"),
                     "413": _json(ERROR, "file over 25 MB"),
                     "422": _json(ERRORS, "not an image, too many pixels, truncated"), **DENIED}}},
             "/api/v1/projects/{project_id}/piles/{mark}/signoff": {"post": {

@@ -36,6 +36,7 @@ from pathlib import Path
 
 from PIL import ExifTags, Image, ImageOps, UnidentifiedImageError
 
+from fieldapp import db
 from fieldapp.queries import audit
 from fieldapp.queries import photos as photos_q
 
@@ -52,6 +53,10 @@ HEIF_BRANDS = {b"heic", b"heix", b"hevc", b"hevx", b"heim", b"heis", b"mif1", b"
 
 # Pillow refuses images over twice this and warns over it; we refuse at the limit itself.
 Image.MAX_IMAGE_PIXELS = MAX_PIXELS
+
+
+class ClientIdReused(ValueError):
+    """The client id was already used in this project for another photo."""
 
 
 class PhotoRejected(ValueError):
@@ -236,24 +241,34 @@ def add_photo(conn: sqlite3.Connection, project_id: int, pile_row, user, client_
     """Store a photo of a pile: (photo, created). ``created`` False means a repeat of a
     ``client_id`` already stored (nothing new is written).
 
-    Raises ``PhotoRejected`` for a bad image or kind/caption, ``ValueError`` when the
-    ``client_id`` was used for another pile.
+    Raises ``PhotoRejected`` for a bad image or kind/caption, ``ClientIdReused`` when the
+    ``client_id`` was used in this project for another photo of the pile (another file, kind or
+    caption), ``ValueError`` when it was used for another pile. Client ids are kept apart per
+    project.
     """
-    from fieldapp import db
+    caption = (caption or "").strip()
+    sha = hashlib.sha256(data).hexdigest()
 
-    earlier = photos_q.by_client_id(conn, client_id)
-    if earlier is not None:
+    def repeat() -> photos_q.Photo | None:
+        earlier = photos_q.by_client_id(conn, project_id, client_id)
+        if earlier is None:
+            return None
         if earlier.pile_id != pile_row.id:
             raise ValueError("client_id was already used for a photo of another pile: make a new one")
+        if (earlier.sha256, earlier.kind, earlier.caption) != (sha, kind, caption):
+            raise ClientIdReused("client_id reused")
+        return earlier
+
+    earlier = repeat()
+    if earlier is not None:
         return earlier, False
     if kind not in KINDS:
         raise PhotoRejected(f"kind must be one of {', '.join(KINDS)}, got {kind!r}")
-    caption = (caption or "").strip()
     if len(caption) > CAPTION_MAX:
         raise PhotoRejected(f"caption must be at most {CAPTION_MAX} characters, got {len(caption)}")
     stored = ingest(data, photo_dir)
     with db.write(conn):
-        earlier = photos_q.by_client_id(conn, client_id)
+        earlier = repeat()
         if earlier is not None:
             return earlier, False
         if not files_present(photo_dir, stored):
@@ -320,8 +335,6 @@ def prune_unreferenced(conn: sqlite3.Connection, photo_dir: str | Path, older_th
     under that lock and writes them again if they went). Appends "photo files pruned" to the
     site-wide audit chain when anything was removed.
     """
-    from fieldapp import db
-
     photo_dir = Path(photo_dir)
     cutoff = time.time() - older_than_s
     candidates, young = _unreferenced(photo_dir, photos_q.hashes_in_use(conn), cutoff)

@@ -9,11 +9,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from design_core.checks import MEETS_DESIGN, NEEDS_ENGINEER
+from design_core.inputs import PILE_TYPES
 from flask import Blueprint, Response, abort, flash, g, redirect, render_template, request, url_for
 
-from fieldapp import db, services
+from fieldapp import db, saving
 from fieldapp.auth import engineer_required, login_required, project_or_404
-from fieldapp.forms import CapForm, ImportForm, PileForm, options
+from fieldapp.forms import CapForm, ImportForm, PileForm, form_messages, options
 from fieldapp.queries import audit, caps, ground, piles, projects
 from fieldapp.schedule_io import COLUMN_DOC, COLUMNS, export_schedule, import_schedule
 
@@ -25,7 +27,7 @@ SORT_COLUMNS = [  # (sort key, heading, numeric)
     ("ground", "Ground model", False), ("progress", "Progress", False), ("verdict", "Verdict", False),
     ("utilisation", "Worst utilisation", True),
 ]
-VERDICT_CLASS = {"meets design": "meets", "needs engineer": "needs"}
+VERDICT_CLASS = {MEETS_DESIGN: "meets", NEEDS_ENGINEER: "needs"}
 
 
 @dataclass(frozen=True)
@@ -51,7 +53,7 @@ class Filters:
         return cls(progress if progress in piles.PROGRESS else "",
                    verdict if verdict in piles.VERDICTS + ("none",) else "",
                    args.get("cap", "")[:40], args.get("ground", "") if args.get("ground", "").isdigit() else "",
-                   pile_type if pile_type in ("bored", "cfa", "driven", "screw") else "",
+                   pile_type if pile_type in PILE_TYPES else "",
                    args.get("q", "")[:40], sort if sort in piles.SORTS else "mark", args.get("desc") == "1")
 
     def query(self, **changes) -> dict:
@@ -81,8 +83,8 @@ def list_piles(project_id):
     counts = {
         "total": len(everything),
         "progress": {p: sum(1 for r in everything if r.progress == p) for p in piles.PROGRESS},
-        "meets": sum(1 for r in everything if r.verdict == "meets design"),
-        "needs": sum(1 for r in everything if r.verdict == "needs engineer"),
+        "meets": sum(1 for r in everything if r.verdict == MEETS_DESIGN),
+        "needs": sum(1 for r in everything if r.verdict == NEEDS_ENGINEER),
     }
     return render_template("piles.html", project=project, piles=rows, filters=f, counts=counts,
                            sort_columns=SORT_COLUMNS, verdict_class=VERDICT_CLASS,
@@ -152,7 +154,7 @@ def edit_pile(project_id, pile_id):
             with db.write(conn):
                 piles.save_pile(conn, project_id, values, pile_id)
                 audit.append(conn, project_id, _actor(), "pile changed", values["mark"], {"changed": changed})
-                moved = services.recheck_stored(conn, project_id, _pile_and_cap_mates(conn, project_id, pile_id),
+                moved = saving.recheck_stored(conn, project_id, _pile_and_cap_mates(conn, project_id, pile_id),
                                                 g.user, f"rechecked on the changed design of {values['mark']}")
         except ValueError as exc:
             form.mark.errors.append(str(exc))
@@ -263,7 +265,7 @@ def edit_cap(project_id, cap_id):
                 caps.save_cap(conn, project_id, form.mark.data, form.loads(), cap_id)
                 audit.append(conn, project_id, _actor(), "cap changed", form.mark.data.strip(),
                              {"before": {k: getattr(cap, k) for k in caps.CAP_LOAD_FIELDS}, "after": form.loads()})
-                moved = services.recheck_stored(
+                moved = saving.recheck_stored(
                     conn, project_id, piles.list_piles(conn, project_id, cap=form.mark.data.strip()),
                     g.user, f"rechecked on the changed loads of cap {form.mark.data.strip()}")
         except ValueError as exc:
@@ -278,8 +280,6 @@ def edit_cap(project_id, cap_id):
 
 @bp.app_template_filter("form_messages")
 def _form_messages_filter(form):
-    from fieldapp.forms import form_messages
-
     return form_messages(form)
 
 

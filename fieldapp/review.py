@@ -18,161 +18,35 @@ Routes
 Sign-off rules: engineers (and admins) only, with the password typed again; reasons are required
 unless the pile is accepted as meeting design. The signed record version is locked: the record
 save refuses a plain change (409 ``locked``) and takes an amendment with a reason, which makes
-a new version that needs its own sign-off (registered below in ``services.SAVE_GUARDS`` and
-``services.AFTER_SAVE``).
+a new version that needs its own sign-off (``fieldapp.signoff``, called by the save path
+itself).
 """
 
 from __future__ import annotations
 
-import hashlib
 import sqlite3
 from dataclasses import dataclass
 
+from design_core.checks import MEETS_DESIGN
 from flask import Blueprint, abort, current_app, flash, g, jsonify, redirect, render_template, request, url_for
 from flask_wtf import FlaskForm
 from wtforms import HiddenField, PasswordField, SelectField, TextAreaField
 from wtforms.fields.choices import SelectChoice
 from wtforms.validators import DataRequired, Length
 
-from fieldapp import db, drawings, services
+from fieldapp import db, drawings
+from fieldapp.api import json_body
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.queries import audit, records, users
 from fieldapp.queries import review as review_q
+from fieldapp.queries import piles as piles_q
 from fieldapp.record import data as record_data
+from fieldapp.record_input import unicode_problem
+from fieldapp.signoff import MAX_REASONS, SignRefused, sign_pile
 
 bp = Blueprint("review", __name__)
 
 PAGE_SIZE = 20
-MAX_REASONS = 4000
-
-
-# --- the lock on signed records (hooks into the one save path) ---------------------------------
-
-def lock_guard(conn: sqlite3.Connection, pile_row, amendment: dict | None) -> str | None:
-    """Refuse a plain save of a signed pile; an amendment needs a reason."""
-    if not review_q.is_locked(conn, pile_row.id):
-        return None
-    if not amendment:
-        return (f"pile {pile_row.mark} is signed at version {pile_row.current_version}: a change "
-                "must be an amendment with a reason, and it will need its own sign-off")
-    reason = amendment.get("reason")
-    if not isinstance(reason, str) or not reason.strip():
-        return "amendment.reason is required to change a signed record"
-    if len(reason) > MAX_REASONS:
-        return f"amendment.reason must be at most {MAX_REASONS} characters"
-    return None
-
-
-def note_amendment(conn: sqlite3.Connection, pile_row, version: int, amendment: dict | None) -> None:
-    """After a save: when it amended a signed version, store the amendment and its audit entry."""
-    if not amendment or version < 2 or review_q.signoff_for(conn, pile_row.id, version - 1) is None:
-        return
-    saved = records.get_version(conn, pile_row.id, version)
-    review_q.record_amendment(conn, project_id=pile_row.project_id, pile_id=pile_row.id, mark=pile_row.mark,
-                              from_version=version - 1, version=version, reason=amendment.get("reason", ""),
-                              user_id=saved.created_by if saved else None,
-                              actor=(saved.created_by_name if saved else "") or "unknown")
-
-
-if lock_guard not in services.SAVE_GUARDS:
-    services.SAVE_GUARDS.append(lock_guard)
-if note_amendment not in services.AFTER_SAVE:
-    services.AFTER_SAVE.append(note_amendment)
-
-
-# --- signing --------------------------------------------------------------------------------------
-
-class SignRefused(Exception):
-    """A sign-off that cannot be made: HTTP status and the JSON body to answer with."""
-
-    def __init__(self, status: int, body: dict):
-        super().__init__(body.get("message") or body.get("error") or str(body))
-        self.status = status
-        self.body = body
-
-
-def reasons_needed(disposition: str, verdict: str) -> bool:
-    """Reasons are required unless the pile is accepted as meeting design."""
-    return not (disposition == "accepted" and verdict == "meets design")
-
-
-def record_hash_payload(project_id: int, mark: str, current: records.RecordVersion, disposition: str,
-                        reasons: str, remedial_of: int | None, user, signed_at: str) -> dict:
-    """What a sign-off signs: the record version with its checks and verdict, the decision, the
-    signer and the rules version."""
-    return {
-        "project_id": project_id, "pile": mark, "version": current.version, "record": current.record,
-        "checks": current.checks, "verdict": current.verdict,
-        "worst_utilisation": current.worst_utilisation, "disposition": disposition,
-        "reasons": reasons, "remedial_of": remedial_of,
-        "signer": {"id": user.id, "email": user.email, "name": user.name, "role": user.role},
-        "signed_at": signed_at, "rules_version": current.rules_version,
-    }
-
-
-def _clean_reasons(value) -> str:
-    if value is None:
-        return ""
-    if not isinstance(value, str):
-        raise SignRefused(422, {"errors": {"reasons": "must be text"}})
-    return value.strip()
-
-
-def sign_pile(conn: sqlite3.Connection, project_id: int, pile_row, user, disposition, reasons,
-              *, version: int | None = None, remedial_of: int | None = None, batch: bool = False) -> review_q.SignOff:
-    """Sign the pile's current record version with a disposition; one transaction with its audit
-    entry. The caller has checked the role and the password. Raises SignRefused."""
-    errors = {}
-    if disposition not in review_q.DISPOSITIONS:
-        errors["disposition"] = f"must be one of {', '.join(review_q.DISPOSITIONS)}, got {disposition!r}"
-    reasons = _clean_reasons(reasons)
-    if len(reasons) > MAX_REASONS:
-        errors["reasons"] = f"must be at most {MAX_REASONS} characters, got {len(reasons)}"
-    if remedial_of is not None and (isinstance(remedial_of, bool) or not isinstance(remedial_of, int)):
-        errors["remedial_of"] = "must be the id of a sign-off with disposition remedial"
-    if errors:
-        raise SignRefused(422, {"errors": errors})
-    with db.write(conn):
-        current = records.current(conn, pile_row.id)
-        if current is None:
-            raise SignRefused(409, {"error": "no record", "message": f"pile {pile_row.mark} has no record to sign"})
-        if current.progress != "logged":
-            raise SignRefused(409, {"error": "not logged", "message":
-                                    f"pile {pile_row.mark} is at '{current.progress}': only a logged record "
-                                    "can be signed"})
-        if version is not None and version != current.version:
-            raise SignRefused(409, {"error": "conflict", "message":
-                                    f"the record changed since you opened it (now version {current.version}, "
-                                    f"you reviewed {version})", "version": current.version})
-        if review_q.signoff_for(conn, pile_row.id, current.version) is not None:
-            raise SignRefused(409, {"error": "locked", "message":
-                                    f"version {current.version} of pile {pile_row.mark} is signed already"})
-        if reasons_needed(disposition, current.verdict) and not reasons:
-            why = ("the pile needs the engineer" if current.verdict != "meets design"
-                   else f"the disposition is {disposition}")
-            raise SignRefused(422, {"errors": {"reasons": f"are required because {why} (only a pile "
-                                                          "accepted as meeting design may go without)"}})
-        if remedial_of is None:
-            earlier = review_q.open_remedial(conn, project_id, pile_row.id)
-            remedial_of = earlier.id if earlier is not None and earlier.version < current.version else None
-        elif review_q.signoff_by_id(conn, project_id, remedial_of) is None or \
-                review_q.signoff_by_id(conn, project_id, remedial_of).disposition != "remedial":
-            raise SignRefused(422, {"errors": {"remedial_of": "must be the id of a sign-off of this project "
-                                                              "with disposition remedial"}})
-        signed_at = audit.now_iso()
-        payload = record_hash_payload(project_id, pile_row.mark, current, disposition, reasons, remedial_of,
-                                      user, signed_at)
-        signed_json = audit.canonical_json(payload)
-        digest = hashlib.sha256(signed_json.encode("utf-8")).hexdigest()
-        signoff_id = review_q.insert_signoff(
-            conn, project_id=project_id, pile_id=pile_row.id, version=current.version, disposition=disposition,
-            reasons=reasons, remedial_of=remedial_of, verdict=current.verdict, rules_version=current.rules_version,
-            signed_by=user.id, signed_at=signed_at, signed_json=signed_json, record_hash=digest, batch=batch)
-        audit.append(conn, project_id, user.label, "sign-off", pile_row.mark,
-                     {"version": current.version, "disposition": disposition, "reasons": reasons,
-                      "verdict": current.verdict, "remedial_of": remedial_of, "record_hash": digest,
-                      "rules_version": current.rules_version, "batch": batch})
-        return review_q.signoff_by_id(conn, project_id, signoff_id)
 
 
 class TooManyTries(Exception):
@@ -225,11 +99,14 @@ def api_signoff(project_id: int, mark: str):
     project = project_or_404(project_id)
     conn = db.get_db()
     _pile_status_or_404(conn, project.id, mark)
-    from fieldapp.queries import piles as piles_q
     pile = piles_q.get_pile(conn, project.id, mark)
-    body = request.get_json(silent=True)
+    body = json_body()
     if not isinstance(body, dict):
         return _json(400, {"error": "the body must be a JSON object with disposition, reasons, password"})
+    errors = {name: problem for name in ("disposition", "reasons", "password")
+              if isinstance(body.get(name), str) and (problem := unicode_problem(body[name]))}
+    if errors:
+        return _json(422, {"errors": errors, "signed": False})
     try:
         if not _password_ok(conn, project.id, mark, body.get("password")):
             return _json(403, {"error": "wrong password", "signed": False})
@@ -326,7 +203,7 @@ def _pile_page(project, status, form, code: int = 200):
     events = review_q.pile_audit(conn, project.id, status.mark)
     return render_template("review_pile.html", project=project, status=status, sheet=sheet, svgs=_svgs(sheet),
                            history=history, events=events, form=form,
-                           reasons_optional=(status.verdict == "meets design")), code
+                           reasons_optional=(status.verdict == MEETS_DESIGN)), code
 
 
 @bp.get("/projects/<int:project_id>/review/piles/<mark>")
@@ -356,7 +233,6 @@ def signoff(project_id: int, mark: str):
     except TooManyTries:
         form.password.errors = [_wait_message()]
         return _pile_page(project, status, form, 429)
-    from fieldapp.queries import piles as piles_q
     pile_row = piles_q.get_pile(conn, project.id, mark)
     try:
         version = int(form.version.data) if form.version.data else None
@@ -399,7 +275,6 @@ def batch(project_id: int):
     except TooManyTries:
         flash(_wait_message())
         return redirect(url_for("review.queue", project_id=project.id))
-    from fieldapp.queries import piles as piles_q
     clear = {(s.mark, s.current_version) for s in review_q.clear_unsigned(conn, project.id)}
     signed, skipped = [], []
     for item in picked:

@@ -27,6 +27,8 @@ HEAD_RE = re.compile(r"^(\d{1,18}):([0-9a-f]{64})$")
 
 def register(main: click.Group) -> None:
     """Add ``verify-audit`` to the ``toeline`` command group."""
+    # fieldapp.cli imports this module while it loads (its _load_extra_commands): importing it
+    # back at the top would find it half made.
     from fieldapp.cli import _app, data_option
 
     @main.command("verify-audit")

@@ -1,10 +1,10 @@
-"""At the rig: the inspector's screen on the tablet (PRODUCT.md sections 4, 9; issue 5).
+"""At the rig: the inspector's screen on the tablet (issue 5).
 
 * ``GET /projects/<id>/rig`` (``rig.pick``): find a pile by mark, or take the nearest planned
   pile to where the rig last was (the pile saved most recently) or to a typed position.
 * ``GET /projects/<id>/rig/<mark>`` (``rig.record``): the one-page record in sections in the
   order of the work, design values beside each as-built field, live checks as figures are
-  typed (static/rig.js, from the data embedded in the page by ``services.rig_data``), photos,
+  typed (static/rig.js, from the data embedded in the page by ``rig_view.rig_data``), photos,
   and the verdict after each save. Saves go through the JSON API (``PUT .../record``), via the
   tablet's outbox when it is there.
 """
@@ -15,21 +15,19 @@ import math
 
 from flask import Blueprint, abort, g, render_template, request, url_for
 
-from fieldapp import db, services
+from design_core.inputs import MATERIALS
+from fieldapp import db, rig_view
 from fieldapp.auth import login_required, project_or_404
 from fieldapp.queries import photos as photos_q
 from fieldapp.queries import piles as piles_q
 from fieldapp.queries import records
+from fieldapp.record_input import BASE_CHECKS, parse_number
 
 bp = Blueprint("rig", __name__)
 
-BASE_CHECKS = services.BASE_CHECKS
-MATERIALS = ("cohesive", "cohesionless", "rock", "ignore")
-
-
 def _number_arg(name: str) -> float | None:
     try:
-        return services.parse_number(request.args.get(name))
+        return parse_number(request.args.get(name))
     except ValueError:
         return None
 
@@ -72,10 +70,11 @@ def record(project_id: int, mark: str):
     pile = piles_q.get_pile(conn, project.id, mark)
     if pile is None:
         abort(404)
-    data = services.rig_data(conn, project.id, pile)
+    data = rig_view.rig_data(conn, project.id, pile)
     data["can_record"] = bool(g.user.can_record)
     data["urls"] = {
         "record": url_for("api.put_record", project_id=project.id, mark=pile.mark),
+        "preview": url_for("api.preview_record", project_id=project.id, mark=pile.mark),
         "photos": url_for("api.post_photo", project_id=project.id, mark=pile.mark),
         "photo_list": url_for("api.list_photos", project_id=project.id, mark=pile.mark),
         "pick": url_for("rig.pick", project_id=project.id),

@@ -7,9 +7,10 @@ record names the version it was checked with) and an audit entry "rules changed"
 
 from __future__ import annotations
 
+from design_core import Rules
 from flask import Blueprint, flash, g, redirect, render_template, request, url_for
 
-from fieldapp import db, services
+from fieldapp import db, saving
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.forms import RULE_NAMES, RulesForm
 from fieldapp.piles import flash_rechecked
@@ -80,7 +81,7 @@ def edit(project_id):
                 audit.append(conn, project_id, g.user.email, "rules changed", f"version {version}",
                              {"version": version, "from_version": current.version, "note": note,
                               "changed": changed})
-                moved = services.recheck_stored(conn, project_id, piles.list_piles(conn, project_id),
+                moved = saving.recheck_stored(conn, project_id, piles.list_piles(conn, project_id),
                                                 g.user, f"rechecked with rules version {version}")
             flash(f"Rules saved as version {version}.")
             flash_rechecked(moved)
@@ -91,6 +92,4 @@ def edit(project_id):
 
 
 def _meta(name: str) -> dict:
-    from design_core import Rules
-
     return Rules.field_meta(name)

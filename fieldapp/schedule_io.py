@@ -443,9 +443,9 @@ def import_schedule(conn, project_id: int, data: bytes, filename: str, actor: st
         audit.append(conn, project_id, actor, "schedule imported", Path(filename).name, {
             "rows": result.rows, "created": result.created, "updated": result.updated,
             "caps_created": result.caps_created, "sha256": hashlib.sha256(data).hexdigest()})
-        from fieldapp import services
+        from fieldapp import saving
 
-        result.rechecked = services.recheck_stored(conn, project_id, piles.list_piles(conn, project_id),
+        result.rechecked = saving.recheck_stored(conn, project_id, piles.list_piles(conn, project_id),
                                                    None, f"rechecked on the schedule imported from "
                                                    f"{Path(filename).name}", actor)
     return result

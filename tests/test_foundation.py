@@ -160,3 +160,28 @@ def test_production_passwords_use_argon2id_with_owasp_minimum_cost():
     assert PRODUCTION_HASHER.memory_cost >= 19 * 1024 and PRODUCTION_HASHER.time_cost >= 2
     stored = PRODUCTION_HASHER.hash("a password")
     assert stored.startswith("$argon2id$")
+
+
+def test_every_blueprint_of_the_list_is_registered(app):
+    from fieldapp import BLUEPRINTS
+
+    registered = set(app.blueprints)
+    names = {"record.views": "record"}
+    assert {names.get(n, n) for n in BLUEPRINTS} <= registered
+
+
+def test_a_missing_blueprint_module_stops_the_app_with_its_name(tmp_path):
+    import pytest
+
+    from fieldapp import BLUEPRINTS
+
+    with pytest.raises(RuntimeError, match="fieldapp.no_such_screen"):
+        create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "data"),
+                    "BLUEPRINTS": BLUEPRINTS + ("no_such_screen",)})
+
+
+def test_a_module_without_a_blueprint_stops_the_app(tmp_path):
+    import pytest
+
+    with pytest.raises(RuntimeError, match="fieldapp.drawings has no blueprint"):
+        create_app({"TESTING": True, "DATA_DIR": str(tmp_path / "data"), "BLUEPRINTS": ("drawings",)})

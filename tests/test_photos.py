@@ -17,7 +17,7 @@ import pytest
 from PIL import ExifTags, Image
 
 from fieldapp import db, photos
-from fieldapp.queries import ground, piles
+from tests.factories import make_ground, make_pile
 
 RED, BLUE = (220, 0, 0), (0, 0, 220)
 
@@ -122,14 +122,9 @@ def pile(app, people):
     with app.app_context():
         conn = db.get_db()
         with db.write(conn):
-            gm = ground.save_model(conn, people["own"], "clay", 95.0, CLAY)
-            piles.save_pile(conn, people["own"], {
-                "mark": "P7", "cap_id": None, "ground_model_id": gm, "pile_type": "bored",
-                "easting_m": 0.0, "northing_m": 0.0, "cutoff_level_m": 99.0, "toe_level_m": 85.0,
-                "diameter_mm": 600.0, "compression_kn": 500.0, "tension_kn": 0.0, "shear_kn": 0.0,
-                "moment_knm": 0.0, "n_bars": 8, "bar_mm": 20.0, "cage_length_m": 6.0,
-                "fc_mpa": 40.0, "fy_mpa": 500.0, "exposure_class": "XC2", "cover_mm": 75.0,
-                "head": "free"})
+            gm = make_ground(conn, people["own"], CLAY, "clay", 95.0)
+            make_pile(conn, people["own"], "P7", gm, easting_m=0.0, northing_m=0.0, cutoff_level_m=99.0,
+                      toe_level_m=85.0, compression_kn=500.0, shear_kn=0.0, cage_length_m=6.0)
     return people
 
 

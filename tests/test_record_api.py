@@ -15,8 +15,9 @@ import uuid
 import pytest
 
 from design_core.axial import capacity_curve, required_toe_level
-from fieldapp import db, services
-from fieldapp.queries import audit, caps, ground, piles, projects, records, users
+from fieldapp import db, pile_inputs, record_input, saving
+from fieldapp.queries import audit, caps, piles, projects, records, users
+from tests.factories import make_ground, make_pile
 
 CLAY = [
     dict(top_level_m=100.0, bottom_level_m=99.0, material="ignore", unit_weight_kn_m3=18.0,
@@ -30,13 +31,10 @@ CUTOFF = 99.0
 PLATFORM = 100.0
 
 
-def _pile_values(mark, cap_id, gm_id, e, n, toe, load, d_mm=600.0):
-    return {"mark": mark, "cap_id": cap_id, "ground_model_id": gm_id, "pile_type": "bored",
-            "easting_m": e, "northing_m": n, "cutoff_level_m": CUTOFF, "toe_level_m": toe,
-            "diameter_mm": d_mm, "compression_kn": load, "tension_kn": 0.0, "shear_kn": 10.0,
-            "moment_knm": 0.0, "n_bars": 8, "bar_mm": 20.0, "cage_length_m": 8.0,
-            "fc_mpa": 40.0, "fy_mpa": 500.0, "exposure_class": "XC2", "cover_mm": 75.0,
-            "head": "free"}
+def _pile_changes(e, n, toe, load, d_mm=600.0):
+    """The design values of this file's piles (changes to the factory's defaults)."""
+    return dict(easting_m=e, northing_m=n, cutoff_level_m=CUTOFF, toe_level_m=toe, diameter_mm=d_mm,
+                compression_kn=load, shear_kn=10.0)
 
 
 def make_site(app, project_id):
@@ -45,17 +43,17 @@ def make_site(app, project_id):
         conn = db.get_db()
         with db.write(conn):
             rules = projects.current_rules(conn, project_id).rules
-            gm = ground.save_model(conn, project_id, "clay site", 98.0, CLAY, "test ground")
-            model = ground.load_ground_model(conn, gm)
+            gm = make_ground(conn, project_id, CLAY, "clay site", 98.0, "test ground")
+            model = pile_inputs.load_ground(conn, gm)
             curve = capacity_curve(model, 0.6, CUTOFF, [CUTOFF - 0.1 - 0.05 * k for k in range(578)],
                                    "bored", rules)
             load = 900.0
             need = required_toe_level(curve, load)
             toe = math.floor((need - 0.5) * 4) / 4  # a little deeper than needed
             cap = caps.save_cap(conn, project_id, "C1", {"n_kn": 2 * load})
-            piles.save_pile(conn, project_id, _pile_values("A1", cap, gm, 500.0, 200.0, toe, load))
-            piles.save_pile(conn, project_id, _pile_values("A2", cap, gm, 501.8, 200.0, toe, load))
-            piles.save_pile(conn, project_id, _pile_values("B1", None, gm, 510.0, 200.0, toe, load))
+            make_pile(conn, project_id, "A1", gm, cap, **_pile_changes(500.0, 200.0, toe, load))
+            make_pile(conn, project_id, "A2", gm, cap, **_pile_changes(501.8, 200.0, toe, load))
+            make_pile(conn, project_id, "B1", gm, None, **_pile_changes(510.0, 200.0, toe, load))
     return {"toe": toe, "need": need, "load": load, "ground": gm}
 
 
@@ -336,7 +334,7 @@ def test_position_off_moves_the_caps_shares(app, client, auth, site):
     with app.app_context():
         conn = db.get_db()
         pile = piles.get_pile(conn, site["own"], "A2")
-        inputs = services.load_inputs(conn, site["own"], pile)
+        inputs = pile_inputs.load_inputs(conn, site["own"], pile)
         xy = {p.mark: p.xy for p in inputs.group.piles}
     assert xy["A1"] == (500.5, 200.0)  # A2's recheck now uses A1 as built
 
@@ -348,7 +346,7 @@ def test_recheck_pile_matches_the_saved_answer(app, client, auth, site):
         conn = db.get_db()
         pile = piles.get_pile(conn, site["own"], "B1")
         stored = records.current(conn, pile.id)
-        verdict = services.recheck_pile(conn, site["own"], pile, stored.record)
+        verdict = saving.recheck_pile(conn, site["own"], pile, stored.record)
     assert verdict.verdict == body["verdict"]
     assert sorted(c.code for c in verdict.checks) == sorted(c["code"] for c in body["checks"])
 
@@ -368,13 +366,13 @@ def test_rig_data_gives_curve_required_toe_and_limits(client, auth, site):
 @pytest.mark.parametrize("text, value", [("12,5", 12.5), (" 12.5 ", 12.5), ("-0,25", -0.25), (7, 7.0),
                                          ("", None), (None, None), (",5", 0.5)])
 def test_parse_number_reads_decimal_commas(text, value):
-    assert services.parse_number(text) == value
+    assert record_input.parse_number(text) == value
 
 
 @pytest.mark.parametrize("text", ["1,234.5", "12a", "nan", "inf", True, [1], "1e999"])
 def test_parse_number_refuses(text):
     with pytest.raises(ValueError):
-        services.parse_number(text)
+        record_input.parse_number(text)
 
 
 # --- the demo's records ------------------------------------------------------------------
@@ -435,6 +433,7 @@ def test_rig_page_embeds_its_data_as_json_and_no_inline_script(client, auth, sit
     assert data["mark"] == "B1" and data["version"] == 0
     assert data["required_toe_level"] == pytest.approx(site["need"], abs=0.02)
     assert data["urls"]["record"] == f"/api/v1/projects/{site['own']}/piles/B1/record"
+    assert data["urls"]["preview"] == f"/api/v1/projects/{site['own']}/piles/B1/preview"
     scripts = [s for s in html.split("<script")[1:]]
     assert all(' src="' in s.split(">")[0] or 'type="application/json"' in s.split(">")[0] for s in scripts)
     assert 'inputmode="decimal"' in html and "Caution" in html
@@ -523,7 +522,7 @@ def test_a_check_added_since_a_record_was_stored_moves_it_only_when_not_ok(app, 
                 records.set_pile_state(conn, row.id, progress=old.progress, verdict="meets design",
                                        worst_utilisation=old.worst_utilisation, version=2)
             rows = {m: piles.get_pile(conn, site["own"], m) for m in ("B1", "A2")}
-            changed = services.recheck_stored(conn, site["own"], list(rows.values()), None, "test")
+            changed = saving.recheck_stored(conn, site["own"], list(rows.values()), None, "test")
         assert changed == ["A2"]
         assert records.stored_version(conn, rows["B1"].id) == 2
         newest = records.current(conn, rows["A2"].id)

@@ -15,13 +15,13 @@ import uuid
 
 import pytest
 
-from fieldapp import db, drawings, services
+from fieldapp import capacity_figures, db, drawings, plan_figures, saving
 from fieldapp.queries import audit, users
 from fieldapp.queries import caps as caps_q
-from fieldapp.queries import ground as ground_q
 from fieldapp.queries import piles as piles_q
 from fieldapp.queries import review as review_q
 from tests.conftest import PASSWORD
+from tests.factories import make_ground, make_pile
 
 GROUND = [
     dict(top_level_m=100.0, bottom_level_m=98.5, material="ignore", unit_weight_kn_m3=18.0),
@@ -31,12 +31,10 @@ GROUND = [
 ]
 
 
-def _pile_values(mark, cap_id, gm, e, n, comp):
-    v = {f.name: f.default for f in piles_q.FIELDS}
-    v.update(mark=mark, cap_id=cap_id, ground_model_id=gm, pile_type="bored", easting_m=e, northing_m=n,
-             cutoff_level_m=99.0, toe_level_m=78.0, diameter_mm=750.0, compression_kn=comp, n_bars=10,
-             bar_mm=20.0, cage_length_m=12.0, fc_mpa=40.0, exposure_class="XC2", cover_mm=75.0)
-    return v
+def _pile_changes(e, n, comp):
+    """The design values of this file's piles (the schedule's defaults elsewhere: no shear)."""
+    return dict(easting_m=e, northing_m=n, cutoff_level_m=99.0, toe_level_m=78.0, diameter_mm=750.0,
+                compression_kn=comp, shear_kn=0.0, n_bars=10, bar_mm=20.0, cage_length_m=12.0)
 
 
 def good_record(pile, **changes):
@@ -56,7 +54,7 @@ def save(app, project_id, mark, record, email="inspector@test.example"):
         conn = db.get_db()
         pile = piles_q.get_pile(conn, project_id, mark)
         user = users.by_email(conn, email)
-        return services.save_record(conn, project_id, pile, user, uuid.uuid4().hex, pile.current_version,
+        return saving.save_record(conn, project_id, pile, user, uuid.uuid4().hex, pile.current_version,
                                     record).version
 
 
@@ -72,11 +70,11 @@ def build_site(app, people):
     with app.app_context():
         conn = db.get_db()
         with db.write(conn):
-            gm = ground_q.save_model(conn, pid, "Clay over sand", 97.5, GROUND)
+            gm = make_ground(conn, pid, GROUND, "Clay over sand", 97.5)
             cap = caps_q.save_cap(conn, pid, "C1", {"n_kn": 4500, "mx_knm": 200, "my_knm": 150})
             for mark, (e, n) in zip(["P1", "P2", "P3"], [(0, 0), (2.4, 0), (1.2, 2.0)], strict=True):
-                piles_q.save_pile(conn, pid, _pile_values(mark, cap, gm, e, n, 1500))
-            piles_q.save_pile(conn, pid, _pile_values("S1", None, gm, 10.0, 0.0, 1200))
+                make_pile(conn, pid, mark, gm, cap, **_pile_changes(e, n, 1500))
+            make_pile(conn, pid, "S1", gm, None, **_pile_changes(10.0, 0.0, 1200))
         piles = {m: piles_q.get_pile(conn, pid, m) for m in ("P1", "P2", "P3", "S1")}
     assert save(app, pid, "P1", good_record(piles["P1"])).verdict == "meets design"
     short = save(app, pid, "P2", good_record(piles["P2"], measured_depth=13.0))
@@ -365,7 +363,7 @@ class _Curve:
 
 
 def test_capacity_figure_draws_the_toes_at_their_levels():
-    fig = drawings.capacity_figure(_Curve(), 1000.0, 86.0, 88.0, 85.0)
+    fig = capacity_figures.capacity_figure(_Curve(), 1000.0, 86.0, 88.0, 85.0)
     lines = [s for s in fig.items if isinstance(s, drawings.Line) and s.width >= 1.4 and s.y1 == s.y2
              and s.x2 - s.x1 > 100]   # lines across the plot, not the legend's
     ys = {s.stroke: s.y1 for s in lines}
@@ -378,21 +376,15 @@ def test_capacity_figure_draws_the_toes_at_their_levels():
 
 
 def test_svg_escapes_user_text():
-    fig = drawings.cap_plan_figure("C<1>", [drawings.PlanPile("P&<b>", (0, 0), (0.05, 0), 0.6, 900.0)])
+    fig = plan_figures.cap_plan_figure("C<1>", [plan_figures.PlanPile("P&<b>", (0, 0), (0.05, 0), 0.6, 900.0)])
     svg = drawings.to_svg(fig)
     assert "<b>" not in svg and "P&amp;&lt;b&gt;" in svg and "C&lt;1&gt;" in svg
 
 
 def test_deviation_exaggeration_is_stated():
-    piles = [drawings.PlanPile("A", (0, 0), (0.06, 0.0), 0.6), drawings.PlanPile("B", (3, 0), None, 0.6)]
+    piles = [plan_figures.PlanPile("A", (0, 0), (0.06, 0.0), 0.6), plan_figures.PlanPile("B", (3, 0), None, 0.6)]
     # spacing 3 m, deviation 60 mm: a third of the spacing is 1 m, i.e. x16.7 -> x10
-    assert drawings.choose_exaggeration([0.06], 3.0) == 10
-    fig = drawings.cap_plan_figure("C9", piles)
+    assert plan_figures.choose_exaggeration([0.06], 3.0) == 10
+    fig = plan_figures.cap_plan_figure("C9", piles)
     assert "drawn x10 (exaggerated)" in drawings.to_svg(fig)
 
-
-def test_reportlab_drawing_matches_the_figure():
-    fig = drawings.capacity_figure(_Curve(), 1000.0, 86.0, 88.0, 85.0)
-    drawing = drawings.to_reportlab(fig, width=180)
-    assert drawing.width == pytest.approx(180) and drawing.height == pytest.approx(fig.height * 180 / fig.width)
-    assert len(drawing.contents[0].contents) == len(fig.items)

@@ -10,8 +10,8 @@ import pytest
 
 from design_core import Rules
 from fieldapp import db
-from fieldapp.queries import audit, caps, ground, piles, projects
-from tests.test_setup_screens import pile_values
+from fieldapp.queries import audit, caps, piles, projects
+from tests.factories import make_ground, make_pile, pile_values
 
 LAYERS = [dict(top_level_m=10.0, bottom_level_m=5.0, material="cohesive", unit_weight_kn_m3=19.0, cu_kpa=60.0),
           dict(top_level_m=5.0, bottom_level_m=-20.0, material="cohesionless", unit_weight_kn_m3=20.0,
@@ -26,9 +26,9 @@ def setup(app, people):
     with app.app_context():
         conn = db.get_db()
         with db.write(conn):
-            gm = ground.save_model(conn, people["own"], "Zone 1", 8.0, LAYERS)
+            gm = make_ground(conn, people["own"], LAYERS, "Zone 1", 8.0)
             cap = caps.save_cap(conn, people["own"], "C1", {"n_kn": 1800.0})
-            pile = piles.save_pile(conn, people["own"], pile_values("P1", gm, cap))
+            pile = make_pile(conn, people["own"], "P1", gm, cap)
     return {"gm": gm, "cap": cap, "pile": pile, **people}
 
 

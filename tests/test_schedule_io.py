@@ -12,7 +12,8 @@ from openpyxl import Workbook, load_workbook
 
 from fieldapp import db, schedule_io
 from fieldapp.cli import main
-from fieldapp.queries import audit, caps, ground, piles
+from fieldapp.queries import audit, caps, piles
+from tests.factories import make_ground, make_pile
 
 LAYERS = [dict(top_level_m=10.0, bottom_level_m=5.0, material="cohesive", unit_weight_kn_m3=19.0, cu_kpa=60.0),
           dict(top_level_m=5.0, bottom_level_m=-20.0, material="cohesionless", unit_weight_kn_m3=20.0,
@@ -38,8 +39,8 @@ def project(app, people):
     with app.app_context():
         conn = db.get_db()
         with db.write(conn):
-            ground.save_model(conn, people["own"], "Zone 1", 8.0, LAYERS)
-            ground.save_model(conn, people["other"], "Zone 1", 8.0, LAYERS)
+            make_ground(conn, people["own"], LAYERS, "Zone 1", 8.0)
+            make_ground(conn, people["other"], LAYERS, "Zone 1", 8.0)
     return people
 
 
@@ -258,13 +259,9 @@ def test_text_that_looks_like_a_formula_is_refused_on_import_and_never_a_formula
     with app.app_context():  # a name stored some other way still exports as plain text
         conn = db.get_db()
         with db.write(conn):
-            gm = ground.save_model(conn, project["own"], "=1+2", 8.0, LAYERS)
-            piles.save_pile(conn, project["own"], {
-                "mark": "F1", "cap_id": None, "ground_model_id": gm, "pile_type": "bored", "easting_m": 0.0,
-                "northing_m": 0.0, "cutoff_level_m": 9.0, "toe_level_m": -5.0, "diameter_mm": 600.0,
-                "compression_kn": 0.0, "tension_kn": 0.0, "shear_kn": 0.0, "moment_knm": 0.0, "n_bars": 0,
-                "bar_mm": 0.0, "cage_length_m": 0.0, "fc_mpa": 32.0, "fy_mpa": 500.0, "exposure_class": "XC2",
-                "cover_mm": 75.0, "head": "free"})
+            gm = make_ground(conn, project["own"], LAYERS, "=1+2", 8.0)
+            make_pile(conn, project["own"], "F1", gm, easting_m=0.0, northing_m=0.0, compression_kn=0.0,
+                      shear_kn=0.0, n_bars=0, bar_mm=0.0, cage_length_m=0.0, fc_mpa=32.0)
         data = schedule_io.export_schedule(conn, project["own"], "xlsx")
     cell = load_workbook(io.BytesIO(data)).worksheets[0]["I2"]
     assert (cell.value, cell.data_type) == ("=1+2", "s")

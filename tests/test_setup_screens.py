@@ -13,23 +13,11 @@ import pytest
 from design_core import Rules
 from design_core.ground import GroundModel
 from design_core.inputs import CapGroup, PileDesign
-from fieldapp import db
+from fieldapp import db, pile_inputs, saving
 from fieldapp.queries import audit, caps, ground, piles, projects
+from tests.factories import TWO_LAYERS, make_ground, make_pile, pile_values
 
-LAYERS = [dict(top_level_m=10.0, bottom_level_m=5.0, material="cohesive", unit_weight_kn_m3=19.0, cu_kpa=60.0,
-               cu_bottom_kpa=90.0),
-          dict(top_level_m=5.0, bottom_level_m=-20.0, material="cohesionless", unit_weight_kn_m3=20.0,
-               phi_deg=34.0)]
-
-
-def pile_values(mark, gm_id, cap_id=None, **changes):
-    values = {"mark": mark, "cap_id": cap_id, "ground_model_id": gm_id, "pile_type": "bored",
-              "easting_m": 100.0, "northing_m": 200.0, "cutoff_level_m": 9.0, "toe_level_m": -5.0,
-              "diameter_mm": 600.0, "compression_kn": 900.0, "tension_kn": 0.0, "shear_kn": 20.0,
-              "moment_knm": 0.0, "n_bars": 8, "bar_mm": 20.0, "cage_length_m": 8.0, "fc_mpa": 40.0,
-              "fy_mpa": 500.0, "exposure_class": "XC2", "cover_mm": 75.0, "head": "free"}
-    values.update(changes)
-    return values
+LAYERS = TWO_LAYERS
 
 
 def as_form(values):
@@ -46,12 +34,12 @@ def setup(app, people):
     with app.app_context():
         conn = db.get_db()
         with db.write(conn):
-            gm = ground.save_model(conn, people["own"], "Zone 1", 8.0, LAYERS, "two layers")
+            gm = make_ground(conn, people["own"], LAYERS, "Zone 1", 8.0, "two layers")
             cap = caps.save_cap(conn, people["own"], "C1", {"n_kn": 1800.0, "my_knm": 90.0})
-            p1 = piles.save_pile(conn, people["own"], pile_values("P1", gm, cap, easting_m=99.0))
-            p2 = piles.save_pile(conn, people["own"], pile_values("P2", gm, cap, easting_m=101.0, toe_level_m=-8.0))
-            p10 = piles.save_pile(conn, people["own"], pile_values("P10", gm, None, pile_type="cfa",
-                                                                   diameter_mm=450.0, toe_level_m=-2.0))
+            p1 = make_pile(conn, people["own"], "P1", gm, cap, easting_m=99.0)
+            p2 = make_pile(conn, people["own"], "P2", gm, cap, easting_m=101.0, toe_level_m=-8.0)
+            p10 = make_pile(conn, people["own"], "P10", gm, None, pile_type="cfa",
+                            diameter_mm=450.0, toe_level_m=-2.0)
     return {"gm": gm, "cap": cap, "p1": p1, "p2": p2, "p10": p10, **people}
 
 
@@ -65,7 +53,7 @@ def engineer(client, auth, setup):
 
 def test_load_ground_model_builds_the_design_core_model(app, setup):
     with app.app_context():
-        model = ground.load_ground_model(db.get_db(), setup["gm"])
+        model = pile_inputs.load_ground(db.get_db(), setup["gm"])
     assert isinstance(model, GroundModel)
     assert model.water_level == 8.0
     assert [(la.top, la.bottom, la.material) for la in model.layers] == [
@@ -80,7 +68,7 @@ def test_save_model_refuses_what_design_core_refuses_and_writes_nothing(app, set
         conn = db.get_db()
         with pytest.raises(ValueError, match="contiguous"):
             with db.write(conn):
-                ground.save_model(conn, setup["own"], "Gap", 8.0, bad)
+                pile_inputs.store_ground_model(conn, setup["own"], "Gap", 8.0, bad)
         assert ground.by_name(conn, setup["own"], "Gap") is None
 
 
@@ -89,7 +77,7 @@ def test_pile_rows_and_pile_design(app, setup):
         conn = db.get_db()
         row = piles.get_pile(conn, setup["own"], "P1")
         assert row.cap_mark == "C1" and row.ground_model_name == "Zone 1" and row.progress == "planned"
-        design = piles.pile_design(row)
+        design = pile_inputs.pile_design(row)
         assert piles.get_pile(conn, setup["other"], "P1") is None  # another project's marks are apart
     assert isinstance(design, PileDesign)
     assert design.diameter == pytest.approx(0.6)  # m, from diameter_mm
@@ -110,8 +98,8 @@ def test_list_piles_sorts_marks_naturally_and_filters(app, setup):
 def test_cap_group_uses_design_positions_and_as_built_where_given(app, setup):
     with app.app_context():
         conn = db.get_db()
-        group = caps.cap_group(conn, setup["cap"])
-        surveyed = caps.cap_group(conn, setup["cap"], {"P2": (101.05, 200.02)})
+        group = pile_inputs.load_cap_group(conn, setup["cap"])
+        surveyed = pile_inputs.load_cap_group(conn, setup["cap"], {"P2": (101.05, 200.02)})
     assert isinstance(group, CapGroup)
     assert (group.mark, group.n, group.my) == ("C1", 1800.0, 90.0)
     assert [(p.mark, p.design_xy, p.asbuilt_xy) for p in group.piles] == [
@@ -234,7 +222,7 @@ def test_engineer_saves_a_ground_model_with_audit(app, client, engineer, setup):
     with app.app_context():
         conn = db.get_db()
         row = ground.by_name(conn, pid, "Zone 9")
-        model = ground.load_ground_model(conn, row.id)
+        model = pile_inputs.load_ground(conn, row.id)
         assert audit.entries(conn, pid)[0]["action"] == "ground model saved"
     assert [la.material for la in model.layers] == ["ignore", "cohesive", "rock"]
     assert model.layers[1].cu_at(0.0) == pytest.approx(70.0)
@@ -297,7 +285,7 @@ def test_ground_model_edit_keeps_the_id_piles_use(app, client, engineer, setup):
     assert response.status_code == 302
     with app.app_context():
         conn = db.get_db()
-        model = ground.load_ground_model(conn, piles.get_pile(conn, pid, "P1").ground_model_id)
+        model = pile_inputs.load_ground(conn, piles.get_pile(conn, pid, "P1").ground_model_id)
     assert model.layers[1].phi == 36 and model.water_level == 6.0
 
 
@@ -387,7 +375,7 @@ def test_demo_is_a_consistent_project(app):
         conn = db.get_db()
         rows = piles.list_piles(conn, pid)
         cap_rows = caps.list_caps(conn, pid)
-        models = {m.id: ground.load_ground_model(conn, m.id) for m in ground.list_models(conn, pid)}
+        models = {m.id: pile_inputs.load_ground(conn, m.id) for m in ground.list_models(conn, pid)}
         rules = projects.current_rules(conn, pid).rules
         names = [m.name for m in ground.list_models(conn, pid)]
     assert len(rows) >= 40
@@ -438,7 +426,7 @@ def test_toe_below_the_ground_model_is_refused_on_piles_and_on_ground_edits(app,
     with app.app_context():
         conn = db.get_db()
         assert piles.get_pile(conn, pid, "P12") is None
-        assert ground.load_ground_model(conn, setup["gm"]).bottom == -20.0
+        assert pile_inputs.load_ground(conn, setup["gm"]).bottom == -20.0
 
 
 def test_marks_that_look_like_formulas_are_refused(app, client, engineer, setup):
@@ -453,14 +441,13 @@ def test_marks_that_look_like_formulas_are_refused(app, client, engineer, setup)
 
 def _record_toe(app, project_id, mark, toe_level):
     """Save a boring record for the pile whose as-built toe is ``toe_level`` (platform 10 m)."""
-    from fieldapp import services
     from fieldapp.queries import users as users_q
 
     with app.app_context():
         conn = db.get_db()
         user = users_q.by_email(conn, "inspector@test.example")
         row = piles.get_pile(conn, project_id, mark)
-        services.save_record(conn, project_id, row, user, f"c-{mark}", None,
+        saving.save_record(conn, project_id, row, user, f"c-{mark}", None,
                              {"progress": "boring", "platform_level": 10.0,
                               "measured_depth": 10.0 - toe_level})
 

@@ -1,18 +1,16 @@
-"""Caps (pile groups) and their loads: N, Mx, My (kN, kNm) and Hx, Hy (kN) (PRODUCT.md section 3).
+"""Caps (pile groups) and their loads: N, Mx, My (kN, kNm) and Hx, Hy (kN).
 
-``cap_group`` builds the ``design_core.inputs.CapGroup`` that the group check shares loads
-over: design positions from the schedule, and as-built positions where the caller has them.
+``cap_loads`` and ``cap_pile_positions`` give the stored rows that ``fieldapp.pile_inputs.cap_group``
+turns into the ``design_core.inputs.CapGroup`` the group check shares loads over.
 """
 
 from __future__ import annotations
 
-import math
 import functools
+import math
 import re
 import sqlite3
 from dataclasses import dataclass
-
-from design_core.inputs import CapGroup, CapPile
 
 CAP_LOAD_FIELDS = ("n_kn", "mx_knm", "my_knm", "hx_kn", "hy_kn")
 CAP_LOAD_LIMIT = 1e7  # kN or kNm, the range design_core.inputs.CapGroup accepts
@@ -119,25 +117,14 @@ def save_cap(conn: sqlite3.Connection, project_id: int, mark: str, loads: dict |
     return cap_id
 
 
-def cap_group(conn: sqlite3.Connection, cap_id: int,
-              asbuilt: dict[str, tuple[float, float]] | None = None) -> CapGroup | None:
-    """The cap as a design_core CapGroup, or None when the cap has no piles or does not exist.
+def cap_loads(conn: sqlite3.Connection, cap_id: int):
+    """The stored row of a cap (mark and loads by CAP_LOAD_FIELDS), or None."""
+    return conn.execute("SELECT * FROM caps WHERE id = ?", (cap_id,)).fetchone()
 
-    Each pile's design position comes from the schedule; ``asbuilt`` maps pile mark ->
-    (easting, northing) in m for piles already surveyed. The loads act at the centroid of the
-    design positions (CapGroup's default load point).
-    """
-    cap = conn.execute("SELECT * FROM caps WHERE id = ?", (cap_id,)).fetchone()
-    if cap is None:
-        return None
+
+def cap_pile_positions(conn: sqlite3.Connection, cap_id: int) -> list[tuple[str, float, float]]:
+    """(mark, design easting m, design northing m) of each pile of the cap, in natural mark order."""
     rows = conn.execute("SELECT mark, easting_m, northing_m FROM piles WHERE cap_id = ?",
                         (cap_id,)).fetchall()
-    if not rows:
-        return None
-    asbuilt = asbuilt or {}
-    piles = tuple(
-        CapPile(r["mark"], (r["easting_m"], r["northing_m"]),
-                tuple(asbuilt[r["mark"]]) if asbuilt.get(r["mark"]) is not None else None)
-        for r in sorted(rows, key=lambda r: natural_key(r["mark"])))
-    return CapGroup(cap["mark"], piles, cap["n_kn"], cap["mx_knm"], cap["my_knm"], cap["hx_kn"],
-                    cap["hy_kn"])
+    return sorted(((r["mark"], r["easting_m"], r["northing_m"]) for r in rows),
+                  key=lambda r: natural_key(r[0]))

@@ -1,16 +1,14 @@
-"""Ground models and their layers (PRODUCT.md section 3).
+"""Ground models and their layers.
 
-Stored rows come back as small frozen dataclasses; ``to_design`` and ``load_ground_model`` turn
-them into ``design_core.ground.GroundModel`` for the checks. ``save_model`` builds the
-design_core objects first, so a ground model that design_core would refuse is never stored.
+Stored rows come back as small frozen dataclasses (``fieldapp.pile_inputs.ground_model`` turns
+one into the ``design_core.ground.GroundModel`` the checks take). ``save_model`` stores layers
+that ``fieldapp.pile_inputs.store_ground_model`` has checked with design_core first.
 """
 
 from __future__ import annotations
 
 import sqlite3
 from dataclasses import dataclass
-
-from design_core.ground import GroundModel, Layer
 
 LAYER_FIELDS = ("top_level_m", "bottom_level_m", "material", "unit_weight_kn_m3", "cu_kpa",
                 "cu_bottom_kpa", "phi_deg", "shaft_friction_kpa", "base_pressure_kpa", "description")
@@ -34,10 +32,6 @@ class LayerRow:
     base_pressure_kpa: float | None
     description: str
 
-    def to_design(self) -> Layer:
-        """The design_core Layer (raises ValueError naming the field when out of range)."""
-        return layer_from_values(self.__dict__)
-
 
 @dataclass(frozen=True)
 class GroundModelRow:
@@ -59,30 +53,6 @@ class GroundModelRow:
     def bottom_level_m(self) -> float | None:
         """Level of the bottom of the last layer (m)."""
         return self.layers[-1].bottom_level_m if self.layers else None
-
-    def to_design(self) -> GroundModel:
-        """The design_core GroundModel."""
-        return GroundModel(tuple(layer.to_design() for layer in self.layers), self.water_level_m)
-
-
-def layer_from_values(values: dict) -> Layer:
-    """A design_core Layer from a dict keyed by the stored column names (None for blanks)."""
-    return Layer(values["top_level_m"], values["bottom_level_m"], values["material"],
-                 values["unit_weight_kn_m3"], cu=values.get("cu_kpa"),
-                 cu_bottom=values.get("cu_bottom_kpa"), phi=values.get("phi_deg"),
-                 shaft_friction=values.get("shaft_friction_kpa"),
-                 base_pressure=values.get("base_pressure_kpa"))
-
-
-def model_from_values(water_level_m: float, layers: list[dict]) -> GroundModel:
-    """A design_core GroundModel from stored-column dicts; ValueError names what is wrong."""
-    built = []
-    for i, values in enumerate(layers):
-        try:
-            built.append(layer_from_values(values))
-        except ValueError as exc:
-            raise ValueError(f"layer {i + 1}: {exc}") from None
-    return GroundModel(tuple(built), water_level_m)
 
 
 def _layer(row) -> LayerRow:
@@ -132,23 +102,21 @@ def names(conn: sqlite3.Connection, project_id: int) -> dict[str, int]:
         "SELECT id, name FROM ground_models WHERE project_id = ?", (project_id,)).fetchall()}
 
 
-def load_ground_model(conn: sqlite3.Connection, ground_model_id: int) -> GroundModel:
-    """The stored ground model as a design_core GroundModel; LookupError when it does not exist."""
+def model_by_id(conn: sqlite3.Connection, ground_model_id: int) -> GroundModelRow | None:
+    """The ground model with this id (any project), or None."""
     row = conn.execute("SELECT * FROM ground_models WHERE id = ?", (ground_model_id,)).fetchone()
-    if row is None:
-        raise LookupError(f"ground model {ground_model_id} does not exist")
-    return _model(conn, row).to_design()
+    return _model(conn, row)
 
 
 def save_model(conn: sqlite3.Connection, project_id: int, name: str, water_level_m: float,
                layers: list[dict], description: str = "", ground_model_id: int | None = None) -> int:
     """Insert (or, given ``ground_model_id``, replace) a ground model with its layers; its id.
 
-    ``layers`` are dicts keyed by ``LAYER_FIELDS``, top down. The design_core model is built
-    first: ValueError (naming the layer and field) and nothing is written when it is invalid,
-    or when another ground model of the project already has this name. Call inside db.write.
+    ``layers`` are dicts keyed by ``LAYER_FIELDS``, top down, already checked
+    (``fieldapp.pile_inputs.store_ground_model`` checks them with design_core and calls this).
+    ValueError, and nothing written, when another ground model of the project already has this
+    name. Call inside db.write.
     """
-    model_from_values(water_level_m, layers)
     name = name.strip()
     if not name:
         raise ValueError("name is required")

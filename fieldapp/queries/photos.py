@@ -51,9 +51,11 @@ def _photo(row) -> Photo | None:
     return Photo(**{k: row[k] for k in row.keys()})
 
 
-def by_client_id(conn: sqlite3.Connection, client_id: str) -> Photo | None:
-    """The photo a client's upload made, or None."""
-    return _photo(conn.execute(_SELECT + "WHERE ph.client_id = ?", (client_id,)).fetchone())
+def by_client_id(conn: sqlite3.Connection, project_id: int, client_id: str) -> Photo | None:
+    """The photo a client's upload in this project made, or None (client ids are unique per
+    project)."""
+    return _photo(conn.execute(_SELECT + "WHERE ph.project_id = ? AND ph.client_id = ?",
+                               (project_id, client_id)).fetchone())
 
 
 def get(conn: sqlite3.Connection, project_id: int, photo_id: int) -> Photo | None:

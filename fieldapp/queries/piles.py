@@ -1,7 +1,8 @@
-"""The pile schedule (PRODUCT.md section 3): one row per pile, design values and its progress.
+"""The pile schedule: one row per pile, design values and its progress.
 
-``PileRow`` carries every stored column plus the cap mark and ground model name; ``pile_design``
-turns a row into the ``design_core.inputs.PileDesign`` the checks take (diameter in m).
+``PileRow`` carries every stored column plus the cap mark and ground model name
+(``fieldapp.pile_inputs.pile_design`` turns a row into the ``PileDesign`` the checks take).
+``PROGRESS`` names a pile's states of work, here once for the whole app.
 ``FIELDS`` lists each schedule value with its unit and allowed range, used by the forms and
 the CSV/XLSX import so both give the same messages.
 """
@@ -12,11 +13,12 @@ import math
 import sqlite3
 from dataclasses import dataclass, fields
 
-from design_core.inputs import HEAD_CONDITIONS, PILE_TYPES, PileDesign
+from design_core.checks import MEETS_DESIGN, NEEDS_ENGINEER
+from design_core.inputs import HEAD_CONDITIONS, PILE_TYPES
 from fieldapp.queries.caps import natural_key
 
 PROGRESS = ("planned", "boring", "concreted", "logged")
-VERDICTS = ("meets design", "needs engineer")
+VERDICTS = (MEETS_DESIGN, NEEDS_ENGINEER)
 
 
 @dataclass(frozen=True)
@@ -214,7 +216,7 @@ SORTS = {
     "compression": lambda p: (p.compression_kn, natural_key(p.mark)),
     "ground": lambda p: (p.ground_model_name, natural_key(p.mark)),
     "progress": lambda p: (PROGRESS.index(p.progress), natural_key(p.mark)),
-    "verdict": lambda p: ({"needs engineer": 0, "meets design": 1}.get(p.verdict or "", 2),
+    "verdict": lambda p: ({NEEDS_ENGINEER: 0, MEETS_DESIGN: 1}.get(p.verdict or "", 2),
                           natural_key(p.mark)),
     "utilisation": lambda p: (-(p.worst_utilisation if p.worst_utilisation is not None else -1e9),
                               natural_key(p.mark)),
@@ -269,17 +271,6 @@ def get_pile_by_id(conn: sqlite3.Connection, project_id: int, pile_id: int) -> P
 def count(conn: sqlite3.Connection, project_id: int) -> int:
     """How many piles the project has."""
     return conn.execute("SELECT COUNT(*) FROM piles WHERE project_id = ?", (project_id,)).fetchone()[0]
-
-
-def pile_design(row: PileRow) -> PileDesign:
-    """The design_core PileDesign of a schedule row (diameter in m from diameter_mm)."""
-    return PileDesign(
-        mark=row.mark, diameter=row.diameter_mm / 1000.0, cutoff_level=row.cutoff_level_m,
-        toe_level=row.toe_level_m, easting=row.easting_m, northing=row.northing_m,
-        pile_type=row.pile_type, compression=row.compression_kn, tension=row.tension_kn,
-        shear=row.shear_kn, moment=row.moment_knm, n_bars=int(row.n_bars), bar_mm=row.bar_mm,
-        cage_length=row.cage_length_m, fc_mpa=row.fc_mpa, fy_mpa=row.fy_mpa,
-        exposure_class=row.exposure_class, cover_mm=row.cover_mm, head=row.head, cap=row.cap_mark)
 
 
 # Columns written by save_pile: the design values plus mark, cap and ground model.

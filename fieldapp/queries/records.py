@@ -2,7 +2,7 @@
 
 Every save is a new row; nothing is updated or deleted. ``piles.current_version`` names the
 newest version of a pile and is moved by :func:`set_pile_state` in the same transaction as the
-insert (see ``fieldapp.services.save_record``, the one save path).
+insert (see ``fieldapp.saving.save_record``, the one save path).
 """
 
 from __future__ import annotations
@@ -67,9 +67,11 @@ def _version(row) -> RecordVersion | None:
         row["created_by_name"], row["created_at"])
 
 
-def by_client_id(conn: sqlite3.Connection, client_id: str) -> RecordVersion | None:
-    """The version a client's save made, or None if that save never arrived."""
-    return _version(conn.execute(_SELECT + "WHERE r.client_id = ?", (client_id,)).fetchone())
+def by_client_id(conn: sqlite3.Connection, project_id: int, client_id: str) -> RecordVersion | None:
+    """The version a client's save in this project made, or None if that save never arrived
+    (client ids are unique per project)."""
+    return _version(conn.execute(_SELECT + "WHERE r.project_id = ? AND r.client_id = ?",
+                                 (project_id, client_id)).fetchone())
 
 
 def current(conn: sqlite3.Connection, pile_id: int) -> RecordVersion | None:

@@ -12,7 +12,9 @@ import sqlite3
 from dataclasses import dataclass
 from typing import Any
 
+from design_core.checks import MEETS_DESIGN, NEEDS_ENGINEER
 from fieldapp.queries import audit
+from fieldapp.queries.caps import natural_key
 from fieldapp.queries.audit import now_iso
 
 DISPOSITIONS = ("accepted", "accepted with conditions", "remedial", "rejected")
@@ -234,7 +236,7 @@ class PileStatus:
             return "planned"
         if self.progress != "logged" and not (self.worst_utilisation or 0.0) > 1.0:
             return "recording"      # in progress and nothing short yet
-        if self.verdict == "needs engineer":
+        if self.verdict == NEEDS_ENGINEER:
             return "needs"
         return "meets"
 
@@ -272,7 +274,7 @@ def needs_engineer(conn: sqlite3.Connection, project_id: int) -> list[PileStatus
     no utilisation last), then by mark. A record still in progress (boring, concreted) is listed
     only when something is already short (utilisation over 1): checks it cannot make yet are
     not a finding."""
-    rows = [s for s in pile_statuses(conn, project_id) if s.verdict == "needs engineer"
+    rows = [s for s in pile_statuses(conn, project_id) if s.verdict == NEEDS_ENGINEER
             and s.current_version >= 1 and not s.signed
             and (s.progress == "logged" or (s.worst_utilisation or 0.0) > 1.0)]
     return sorted(rows, key=lambda s: (-(s.worst_utilisation if s.worst_utilisation is not None else -1.0),
@@ -281,15 +283,8 @@ def needs_engineer(conn: sqlite3.Connection, project_id: int) -> list[PileStatus
 
 def clear_unsigned(conn: sqlite3.Connection, project_id: int) -> list[PileStatus]:
     """Logged piles that meet design and are not signed yet (for the batch sign-off)."""
-    return [s for s in pile_statuses(conn, project_id) if s.verdict == "meets design"
+    return [s for s in pile_statuses(conn, project_id) if s.verdict == MEETS_DESIGN
             and s.progress == "logged" and s.current_version >= 1 and not s.signed]
-
-
-def natural_key(text: str) -> tuple:
-    """Sort key that puts P2 before P10."""
-    import re
-
-    return tuple(int(t) if t.isdigit() else t.lower() for t in re.split(r"(\d+)", text))
 
 
 # --- record builds -----------------------------------------------------------------------------

@@ -1,6 +1,7 @@
 """What the Review screen and the certification record show, gathered from the data layer and
 the recheck's result objects. No SQL here (``fieldapp.queries``) and no engineering (the
-numbers and curves come from ``design_core`` through ``fieldapp.services``).
+numbers and curves come from ``design_core`` through ``fieldapp.saving`` and
+``fieldapp.rig_view``).
 """
 
 from __future__ import annotations
@@ -10,7 +11,11 @@ import sqlite3
 from dataclasses import dataclass, field
 from typing import Any
 
-from fieldapp import drawings, services
+from design_core.group import group_shares
+from design_core.section import section_interaction
+from fieldapp import capacity_figures, drawings, plan_figures, rig_view
+from fieldapp.pile_inputs import load_inputs
+from fieldapp.saving import recheck_pile
 from fieldapp.queries import photos as photos_q
 from fieldapp.queries import piles as piles_q
 from fieldapp.queries import records
@@ -70,28 +75,26 @@ def _shares_by_mark(details: dict[str, Any], group: Any) -> dict[str, float]:
 def pile_figures(conn: sqlite3.Connection, project_id: int, pile, record: dict[str, Any]) -> dict[str, drawings.Figure]:
     """The three pictures of one pile from a recheck of its record (``capacity``,
     ``interaction``, ``plan``). Raises ValueError when the recheck cannot run."""
-    from design_core.axial import required_toe_level
-    from design_core.group import group_shares
-    from design_core.section import section_interaction
-
-    inputs = services.load_inputs(conn, project_id, pile, record)
-    verdict = services.recheck_pile(conn, project_id, pile, record, inputs)
+    inputs = load_inputs(conn, project_id, pile, record)
+    verdict = recheck_pile(conn, project_id, pile, record, inputs)
     details = verdict.details or {}
     design = inputs.design
 
     # 1. capacity: the recheck's curve and the load on the basis it compared (the check's value)
     curve = details.get("curve")
     if curve is None:
-        curve = services.pile_curve(conn, pile, inputs.rules, record)
+        curve = rig_view.tablet_curve(design, inputs.ground, inputs.rules, record)
     axial = verdict.check("axial_compression")
     load = _finite(axial.value) if axial is not None and axial.value else None
     if load is None and design.compression > 0:
         load = design.compression
-    required = required_toe_level(curve, load) if curve is not None and load else None
+    # the recheck's curve was built on the same as-built pile and ground met: read from it
+    required = rig_view.required_toe_for(design, record, inputs.ground, inputs.rules,
+                                         details.get("curve")).level_m
     asbuilt_toe = None
     if record.get("platform_level") is not None and record.get("measured_depth") is not None:
         asbuilt_toe = record["platform_level"] - record["measured_depth"]
-    capacity = drawings.capacity_figure(curve, load, required, asbuilt_toe, design.toe_level)
+    capacity = capacity_figures.capacity_figure(curve, load, required, asbuilt_toe, design.toe_level)
 
     # 2. interaction: as-built section from the recheck, the design section for comparison
     design_curve = None
@@ -101,7 +104,7 @@ def pile_figures(conn: sqlite3.Connection, project_id: int, pile, record: dict[s
                                                design.fc_mpa, design.fy_mpa)
         except ValueError:
             design_curve = None
-    interaction = drawings.interaction_figure(details.get("interaction"), design_curve,
+    interaction = capacity_figures.interaction_figure(details.get("interaction"), design_curve,
                                               details.get("load_point"), details.get("structural_phi") or 1.0)
 
     # 3. plan: the cap with the new shares (and the shares on the design positions)
@@ -124,14 +127,14 @@ def pile_figures(conn: sqlite3.Connection, project_id: int, pile, record: dict[s
             xy = p.asbuilt_xy
             if p.mark == pile.mark:
                 xy = own if None not in own else None
-            plan_piles.append(drawings.PlanPile(p.mark, p.design_xy, xy, design.diameter, new.get(p.mark),
+            plan_piles.append(plan_figures.PlanPile(p.mark, p.design_xy, xy, design.diameter, new.get(p.mark),
                                                 old.get(p.mark), highlight=(p.mark == pile.mark)))
-        plan = drawings.cap_plan_figure(group.mark, plan_piles)
+        plan = plan_figures.cap_plan_figure(group.mark, plan_piles)
     else:
         asbuilt_xy = None
         if record.get("easting") is not None and record.get("northing") is not None:
             asbuilt_xy = (record["easting"], record["northing"])
-        plan = drawings.cap_plan_figure("", [drawings.PlanPile(
+        plan = plan_figures.cap_plan_figure("", [plan_figures.PlanPile(
             pile.mark, (design.easting, design.northing), asbuilt_xy, design.diameter,
             None, None, highlight=True)])
     return {"capacity": capacity, "interaction": interaction, "plan": plan}
@@ -161,9 +164,9 @@ def site_plan(statuses: list[review_q.PileStatus], currents: dict[int, records.R
         xy = None
         if rec is not None and rec.record.get("easting") is not None and rec.record.get("northing") is not None:
             xy = (rec.record["easting"], rec.record["northing"])
-        plan.append(drawings.PlanPile(s.mark, (s.easting_m, s.northing_m), xy, s.diameter_mm / 1000.0,
+        plan.append(plan_figures.PlanPile(s.mark, (s.easting_m, s.northing_m), xy, s.diameter_mm / 1000.0,
                                       status=s.status))
-    return drawings.site_plan_figure(plan, width, height)
+    return plan_figures.site_plan_figure(plan, width, height)
 
 
 @dataclass(frozen=True)

@@ -29,7 +29,7 @@ from fieldapp import db, drawings
 from fieldapp.auth import login_required, project_or_404
 from fieldapp.queries import audit, users
 from fieldapp.queries import review as review_q
-from fieldapp.record import export
+from fieldapp.record import export, pdf
 
 bp = Blueprint("record", __name__)
 
@@ -76,8 +76,6 @@ def _fresh(conn, project_id: int, job: review_q.RecordJob | None) -> review_q.Re
 
 def run_build(app, project_id: int, job_id: int) -> None:
     """The worker: build the PDF on its own connection, storing progress as it goes."""
-    from fieldapp.record import pdf
-
     conn = db.connect(app.config["DATABASE"])
     try:
         last = [0.0]

@@ -19,7 +19,7 @@ import pytest
 from werkzeug.serving import make_server
 
 from design_core.axial import capacity_curve, required_toe_level
-from fieldapp import db
+from fieldapp import db, pile_inputs
 from fieldapp.queries import ground, piles, projects
 from tests.conftest import PASSWORD
 
@@ -96,7 +96,7 @@ def rig_site(app, people, live_server):
         with db.write(conn):
             rules = projects.current_rules(conn, people["own"]).rules
             gm = ground.save_model(conn, people["own"], "clay over sand", 98.0, LAYERS)
-            model = ground.load_ground_model(conn, gm)
+            model = pile_inputs.load_ground(conn, gm)
             curve = capacity_curve(model, 0.9, 99.0, [98.9 - 0.05 * k for k in range(578)], "bored", rules)
             need = required_toe_level(curve, LOAD_KN)
             piles.save_pile(conn, people["own"], {

@@ -32,7 +32,7 @@ from design_core.inputs import PILE_TYPES, AsBuilt, Delivery, PileDesign, Stratu
 from design_core.recheck import recheck
 from design_core.rules import Rules
 from fieldapp import db
-from fieldapp.offline import rig_data_from_bundle
+from fieldapp.rig_view import rig_data_from_bundle
 from fieldapp.queries import ground, piles, projects
 from tests.conftest import PASSWORD
 

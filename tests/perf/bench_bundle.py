@@ -2,9 +2,9 @@
 
 The scene: a tablet opens a 5,000-pile invented project (``sitegen.build_site``) and fetches
 everything it needs to record offline. Figures: ``bundle_5000_ms`` median time to build the
-bundle (``fieldapp.offline.build_bundle``: schedule, rules, shared capacity curves, required
+bundle (``fieldapp.rig_view.build_bundle``: schedule, rules, shared capacity curves, required
 toes, versions); ``bundle_5000_kb`` and ``bundle_5000_gzip_kb`` its JSON size plain and as
-sent gzip-compressed; ``bundle_vs_rig_data`` the time of 200 separate ``services.rig_data``
+sent gzip-compressed; ``bundle_vs_rig_data`` the time of 200 separate ``rig_view.rig_data``
 calls (one curve each, as the rig page does) scaled to 5,000 piles, over the bundle's time:
 what sharing one curve per ground model, diameter, cut-off and pile type saves.
 """
@@ -24,8 +24,8 @@ SAMPLE = 200
 
 
 def run() -> dict:
-    from fieldapp import create_app, db, services
-    from fieldapp.offline import build_bundle
+    from fieldapp import create_app, db, rig_view
+    from fieldapp.rig_view import build_bundle
     from fieldapp.queries import piles as piles_q
     from fieldapp.queries import projects
 
@@ -45,7 +45,7 @@ def run() -> dict:
             rows = piles_q.list_piles(conn, project.id)[:SAMPLE]
             t0 = time.perf_counter()
             for row in rows:
-                services.rig_data(conn, project.id, row)
+                rig_view.rig_data(conn, project.id, row)
             per_pile = (time.perf_counter() - t0) / len(rows)
     bundle_s = statistics.median(times)
     return {

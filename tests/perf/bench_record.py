@@ -1,7 +1,7 @@
 """Certification record benchmark (issue 8): the PDF of 1,000 piles, then of 5,000.
 
 For each size an invented project is made in a temporary data folder (``sitegen.build_site``)
-and every pile gets an as-built record through the one save path (``services.save_record``:
+and every pile gets an as-built record through the one save path (``saving.save_record``:
 validated, rechecked, stored; about one in five stops short of its design toe and needs the
 engineer) and one photo through the one upload path (``photos.add_photo``). The photos are
 320 x 240 JPEGs (the size of the stored thumbnail, which is all the record prints, so a larger
@@ -69,7 +69,7 @@ def fill(folder: str, n_piles: int) -> int:
 
 
 def _fill(app, site: sitegen.Site, rng: random.Random, base: np.ndarray) -> None:
-    from fieldapp import db, photos, services
+    from fieldapp import db, photos, saving
     from fieldapp.queries import piles as piles_q
     from fieldapp.queries import users
 
@@ -80,7 +80,7 @@ def _fill(app, site: sitegen.Site, rng: random.Random, base: np.ndarray) -> None
         for i, facts in enumerate(site.piles):
             pile = piles_q.get_pile(conn, site.project_id, facts.mark)
             record = sitegen.record_for(facts, rng, short=rng.random() < 0.2)
-            services.save_record(conn, site.project_id, pile, user, uuid.uuid4().hex, None, record)
+            saving.save_record(conn, site.project_id, pile, user, uuid.uuid4().hex, None, record)
             photos.add_photo(conn, site.project_id, pile, user, uuid.uuid4().hex, "finished",
                              f"{facts.mark} finished (invented)", _photo(base, i), app.config["PHOTO_DIR"])
 

@@ -67,7 +67,7 @@ class Site:
 
 def build_site(data_dir: str | Path, n_piles: int, n_inspectors: int = 1) -> Site:
     """Make an invented project of ``n_piles`` piles in a fresh data folder (module docstring)."""
-    from fieldapp import create_app, db, demo
+    from fieldapp import create_app, db, demo, pile_inputs
     from fieldapp.queries import audit, caps, ground, piles, projects, users
 
     app = create_app(data_dir=str(data_dir))
@@ -93,7 +93,7 @@ def build_site(data_dir: str | Path, n_piles: int, n_inspectors: int = 1) -> Sit
             for name, description, water, layers in demo.GROUND_MODELS:
                 gm_id = ground.save_model(conn, pid, name, water, layers, description)
                 gm_ids.append(gm_id)
-                gm_models.append(ground.load_ground_model(conn, gm_id))
+                gm_models.append(pile_inputs.load_ground(conn, gm_id))
                 tops.append(layers[0]["top_level_m"])
             block = demo.schedule(gm_models, rules)  # 17 caps, consistent design toes
             singles = [(cap, pl) for cap, pl in block if len(pl) == 1]

@@ -33,7 +33,7 @@ from pathlib import Path
 import pytest
 from reliability_kit import LOGINS, make_app, sign_in, small_jpeg
 
-from fieldapp import db, photos, services
+from fieldapp import db, photos, saving
 from fieldapp.queries import audit, caps, ground, piles, projects, records, users
 
 ROLES = ("admin", "engineer", "inspector", "viewer", "anonymous")
@@ -59,6 +59,7 @@ EXPECT: dict[str, str | tuple[str, set[int]]] = {
     "api.show_pile": "member",
     "api.get_record": "member",
     "api.put_record": "recorder",
+    "api.preview_record": "recorder",
     "api.history": "member",
     "api.list_photos": "member",
     "api.post_photo": "recorder",
@@ -152,7 +153,7 @@ def world(tmp_path_factory, demo_template):
                       "platform_level": 100.0, "measured_depth": depth,
                       "strata": [{"from_depth": 0.0, "to_depth": 1.0, "material": "ignore",
                                   "description": f"stratum {SCRIPT} {BOLD}"}]}
-            services.save_record(conn, project_id, pile, inspector, str(uuid.uuid4()),
+            saving.save_record(conn, project_id, pile, inspector, str(uuid.uuid4()),
                                  records.stored_version(conn, pile.id), record)
             photos.add_photo(conn, project_id, pile, inspector, str(uuid.uuid4()), "base",
                              f"caption {SCRIPT} {IMG} {BOLD}", small_jpeg(project_id * 7 + pile.id),
@@ -236,6 +237,8 @@ class Door:
         if endpoint == "api.put_record":
             return client.put(url, headers=headers, json={
                 "client_id": str(uuid.uuid4()), "base_version": None, "record": {"progress": "boring"}})
+        if endpoint == "api.preview_record":
+            return client.post(url, headers=headers, json={"record": {"progress": "boring"}})
         if endpoint == "api.post_photo":
             return client.post(url, headers=headers, content_type="multipart/form-data", data={
                 "client_id": str(uuid.uuid4()), "kind": "other", "caption": "",

@@ -30,7 +30,7 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 from reliability_kit import engineer_site
 
-from fieldapp import db, services
+from fieldapp import db, record_input
 from fieldapp.queries import piles as piles_q
 from fieldapp.queries import records
 from fieldapp.schedule_io import COLUMNS, import_schedule
@@ -87,7 +87,7 @@ def _assert_refusal_names_fields(status: int, body: dict, sent: dict) -> None:
         errors = body["errors"]
         assert errors and all(isinstance(v, str) and v for v in errors.values())
         record = sent.get("record") if isinstance(sent, dict) else None
-        known = set(services.RECORD_KEYS) | {"record", "client_id", "base_version", "amendment"}
+        known = set(record_input.RECORD_KEYS) | {"record", "client_id", "base_version", "amendment"}
         if isinstance(record, dict):
             known |= {str(k)[:60] for k in record}
         for key in errors:
@@ -104,22 +104,26 @@ NUMBER_TEXT = st.sampled_from(["12,5", "12.5", "1,234.5", "NaN", "nan", "inf", "
 VALUE = st.recursive(
     st.one_of(st.none(), st.booleans(), st.integers(min_value=-10**20, max_value=10**20),
               st.floats(allow_nan=True, allow_infinity=True), NUMBER_TEXT,
-              st.text(max_size=30), st.text(min_size=4001, max_size=4100)),
+              st.text(max_size=30), st.text(min_size=4001, max_size=4100),
+              # integers beyond any float (10^400) and text no UTF-8 can hold (lone surrogates)
+              st.sampled_from([10**400, -(10**401), 2**64]),
+              st.builds(lambda a, b: a + b, st.text(max_size=5),
+                        st.sampled_from(["\ud800", "\udfff", "x\ud83d"]))),
     lambda inner: st.one_of(st.lists(inner, max_size=3),
                             st.dictionaries(st.sampled_from(["docket", "volume_m3", "batched_at", "from_depth",
                                                              "to_depth", "material", "x"]), inner, max_size=4)),
     max_leaves=8)
-KEYS = st.sampled_from(list(services.RECORD_KEYS) + ["toe", "Platform_Level", "", "__proto__"])
+KEYS = st.sampled_from(list(record_input.RECORD_KEYS) + ["toe", "Platform_Level", "", "__proto__"])
 RECORD = st.dictionaries(KEYS, VALUE, max_size=8)
 
 
 def _sane_number(name: str):
-    lo, hi, _ = services.NUMBER_FIELDS[name]
+    lo, hi, _ = record_input.NUMBER_FIELDS[name]
     return st.one_of(st.floats(min_value=lo, max_value=hi), NUMBER_TEXT, st.floats())
 
 
 PLAUSIBLE = st.fixed_dictionaries(
-    {"progress": st.sampled_from(list(services.PROGRESS) + ["done"])},
+    {"progress": st.sampled_from(list(record_input.PROGRESS) + ["done"])},
     optional={"platform_level": _sane_number("platform_level"), "measured_depth": _sane_number("measured_depth"),
               "diameter_mm": _sane_number("diameter_mm"), "debris_mm": _sane_number("debris_mm"),
               "cover_mm": _sane_number("cover_mm"), "inclination": _sane_number("inclination"),

@@ -1,0 +1,411 @@
+"""What the At the rig page, the tablet's offline bundle and the preview show for a pile.
+
+One builder for each thing:
+
+``pile_entry(...)``
+    The dict of one pile that the page (``rig_data``) and the bundle (``build_bundle``) both
+    carry: design values, newest record and its result, version, verdict, load, curve, required
+    toe. ``rig_data_from_bundle`` puts one pile's page data back together from a bundle (the
+    tablet's ``rigData`` in static/ does the same), equal to ``rig_data``.
+``tablet_curve(design, ground, rules, record=None)``
+    The capacity curve the tablet caches (every ``CURVE_STEP_M`` from just below the top level
+    to the bottom of the ground model), the one curve builder the app calls for it.
+``required_toe_for(design, record, ground, rules)``
+    The required toe everywhere in the app (page, bundle, preview): the highest toe level where
+    the design resistance of the pile as built (as-built diameter and cut-off when recorded, the
+    ground met when strata are logged) first reaches the demand the compression check uses.
+``preview(conn, project_id, pile_row, raw)``
+    The dry-run recheck of a record body: what a save would answer, nothing stored.
+
+Bundle format (``format`` 1): ``project``, ``rules_version``, ``rules``, ``limits``,
+``ground_models`` (ground_top, ground_bottom, layers), ``curves`` (toe_levels, design) and
+``piles`` (each a ``pile_entry`` whose ``curve`` is a key of ``curves`` and ``ground`` a key of
+``ground_models``, with ``ground_model`` and ``worst_utilisation``).
+"""
+
+from __future__ import annotations
+
+import math
+import sqlite3
+from dataclasses import dataclass
+from functools import lru_cache
+from typing import Any
+
+import numpy as np
+
+from design_core import Rules
+from design_core.axial import CapacityCurve, capacity_curve, required_toe_level
+from design_core.ground import GroundModel, ground_from_strata
+from design_core.inputs import PileDesign
+from design_core.recheck import _axial_demand
+from fieldapp import saving
+from fieldapp.pile_inputs import asbuilt_from_record, load_ground, pile_design
+from fieldapp.queries import piles as piles_q
+from fieldapp.queries import projects, records
+
+CURVE_STEP_M = 0.1
+CURVE_MAX_POINTS = 600
+REFINE_TOL_M = 0.001     # the required toe is found to 1 mm, on the deep side
+
+
+# --------------------------------------------------------------------------------------------
+# Values the page shows beside the fields
+# --------------------------------------------------------------------------------------------
+
+def design_dict(design: PileDesign) -> dict[str, Any]:
+    """The design values the rig page shows beside each as-built field (record key names)."""
+    return {
+        "mark": design.mark, "pile_type": design.pile_type, "cap": design.cap,
+        "diameter_mm": round(design.diameter * 1000.0, 3), "cutoff_level": design.cutoff_level,
+        "toe_level": design.toe_level, "easting": design.easting, "northing": design.northing,
+        "compression_kn": design.compression, "tension_kn": design.tension,
+        "shear_kn": design.shear, "moment_knm": design.moment, "n_bars": design.n_bars,
+        "bar_mm": design.bar_mm, "cage_length": design.cage_length,
+        "concrete_mpa": design.fc_mpa, "exposure_class": design.exposure_class,
+        "cover_mm": design.cover_mm, "inclination": 0.0,
+        # plan area of the design section (m2): the recheck's theoretical concrete volume is
+        # this times the length from the toe to the casting level (or cut-off)
+        "area_m2": math.pi * design.diameter ** 2 / 4.0,
+        "permanent_casing": bool(getattr(design, "permanent_casing", False)),
+    }
+
+
+def limits_dict(rules: Rules) -> dict[str, Any]:
+    """The rules' limits the live checks compare against, with the cover table per class."""
+    return {
+        "base_debris_mm": rules.base_debris_mm,
+        "cage_tolerance_m": rules.cage_tolerance_m,
+        "position_tolerance_mm": rules.position_tolerance_mm,
+        "inclination_tolerance": rules.inclination_tolerance,
+        "cutoff_tolerance_mm": rules.cutoff_tolerance_mm,
+        "toe_tolerance_mm": rules.toe_tolerance_mm,
+        "diameter_tolerance_mm": rules.diameter_tolerance_mm,
+        "volume_ratio_min": rules.volume_ratio_min,
+        "volume_ratio_max": rules.volume_ratio_max,
+        "batch_to_discharge_min": rules.batch_to_discharge_min,
+        "min_cover_mm": {row.code: rules.min_cover_mm(row.code) for row in rules.exposure_table},
+        "min_cover_cased_mm": {row.code: rules.min_cover_mm(row.code, cast_against_soil=False)
+                               for row in rules.exposure_table},
+        "min_strength_mpa": {row.code: row.min_strength_mpa for row in rules.exposure_table},
+    }
+
+
+def ground_dict(ground: GroundModel) -> dict[str, Any]:
+    """The ground model's extent and layers (for picking the layer a stratum matches)."""
+    return {"ground_top": ground.top, "ground_bottom": ground.bottom,
+            "layers": [{"index": i, "material": layer.material, "top": layer.top, "bottom": layer.bottom}
+                       for i, layer in enumerate(ground.layers)]}
+
+
+# --------------------------------------------------------------------------------------------
+# The curve and the required toe
+# --------------------------------------------------------------------------------------------
+
+def _ground_met(ground: GroundModel, record: dict[str, Any] | None) -> GroundModel:
+    """The ground under the pile: rebuilt from the strata met when they were logged with a
+    platform level (down to the bottom of the model), else the ground model."""
+    record = record or {}
+    if record.get("strata") and record.get("platform_level") is not None:
+        strata = asbuilt_from_record(record).strata
+        ground, _ = ground_from_strata(ground, record["platform_level"], strata, ground.bottom)
+    return ground
+
+
+def _geometry(design: PileDesign, record: dict[str, Any] | None) -> tuple[float, float]:
+    """(diameter m, top level m) of the pile: as recorded, else as designed."""
+    record = record or {}
+    top = record.get("cutoff_level", design.cutoff_level)
+    diameter = record["diameter_mm"] / 1000.0 if record.get("diameter_mm") else design.diameter
+    return diameter, top
+
+
+def tablet_curve(design: PileDesign, ground: GroundModel, rules: Rules,
+                 record: dict[str, Any] | None = None) -> CapacityCurve | None:
+    """Design resistance (kN) against toe level (m) for the pile, every ``CURVE_STEP_M``.
+
+    Top level: the record's cut-off level, else the design cut-off; diameter: the record's
+    ``diameter_mm``, else the design diameter. With strata met and a platform level in the
+    record, the ground under the pile is rebuilt from them down to the bottom of the model.
+    The curve runs from 0.1 m below the top (or the ground surface) to the bottom of the ground
+    model. None when there is no room for it. ValueError when design_core refuses the inputs.
+    """
+    ground = _ground_met(ground, record)
+    diameter, top = _geometry(design, record)
+    start = min(top, ground.top) - CURVE_STEP_M
+    if start <= ground.bottom:
+        return None
+    n = int(min(CURVE_MAX_POINTS, max(2, math.ceil((start - ground.bottom) / CURVE_STEP_M) + 1)))
+    toes = np.linspace(start, ground.bottom, n)
+    return capacity_curve(ground, diameter, top, toes, design.pile_type, rules)
+
+
+def curve_dict(curve: CapacityCurve) -> dict[str, list[float]]:
+    """The curve as the page and the bundle carry it (levels to 0.1 mm, resistance to 0.01 kN)."""
+    return {"toe_levels": [round(float(z), 4) for z in curve.toe_levels],
+            "design": [round(float(d), 2) for d in curve.design]}
+
+
+@dataclass(frozen=True)
+class RequiredToe:
+    """The toe level a pile needs for its compression demand, and how much deeper than the toe
+    recorded that is (m; None when no toe was recorded or no level was found)."""
+
+    level_m: float | None
+    more_needed_m: float | None
+    demand_kn: float | None
+    reason: str
+
+
+@lru_cache(maxsize=512)   # a key holds its curve (about 25 kB): at most about 13 MB kept
+def _level_on(curve: CapacityCurve, demand: float, ground: GroundModel, diameter: float, top: float,
+              pile_type: str, rules: Rules) -> float | None:
+    """The required level read from ``curve`` (built on these ground, diameter, top, type and
+    rules) and confirmed by ``_confirmed_level``; None when the curve never reaches the demand.
+    Kept between calls (piles of one bundle share a curve and often a load); the curve is
+    keyed by identity, as it compares by identity (the cache holds it, so the identity stays
+    its own). ``clear_kept_levels`` empties both caches."""
+    level = required_toe_level(curve, demand)
+    if level is None:
+        return None
+    reaching = curve.toe_levels[(curve.toe_levels <= level) & (curve.design >= demand)]
+    deep = float(reaching.max()) if reaching.size else float(level)
+    return _confirmed_level(ground, diameter, top, pile_type, rules, demand, float(level), deep)
+
+
+@lru_cache(maxsize=4096)
+def _confirmed_level(ground: GroundModel, diameter: float, top: float, pile_type: str, rules: Rules,
+                     demand: float, level: float, deep: float) -> float:
+    """The highest of ``level`` and the levels below it every ``REFINE_TOL_M`` down to ``deep``
+    (a curve point that reaches ``demand``) where design_core's design resistance reaches the
+    demand: one capacity_curve call over the whole bracket. Kept between calls (the bundle asks
+    again for every pile of the same load); keyed by every input it reads."""
+    n = max(2, int(math.ceil((level - deep) / REFINE_TOL_M)) + 1)
+    grid = np.linspace(level, deep, n)
+    design = capacity_curve(ground, diameter, top, grid, pile_type, rules).design
+    reached = np.flatnonzero(design >= demand)
+    return float(grid[reached[0]]) if reached.size else float(deep)
+
+
+def required_toe_for(design: PileDesign, record: dict[str, Any] | None, ground: GroundModel,
+                     rules: Rules, curve: CapacityCurve | None = None) -> RequiredToe:
+    """The required toe of one pile: where its design resistance first reaches the demand the
+    compression check compares (``design_core.recheck._axial_demand``: the design compression
+    on the basis of the design approach, ``loads_are`` and ``load_factor``).
+
+    On the pile as built (``_geometry``) and the ground met (``_ground_met``). The level is
+    read from the tablet's curve (``curve`` when it was built for these inputs, else built
+    here) and then confirmed with design_core at that level: when the resistance there falls
+    short (a step in base resistance at a layer boundary, or the chord of a curving
+    resistance), the level is moved down to the first level, every ``REFINE_TOL_M``, where it
+    is reached (``_confirmed_level``): never shallower than design_core says.
+
+    This is the single call site to switch to design_core's own required-toe function when it
+    lands; every screen, the bundle and the preview take the level from here.
+    """
+    if design.compression <= 0:
+        return RequiredToe(None, None, None, "No compression load in the design")
+    demand = float(_axial_demand(design.compression, rules))
+    curve = curve if curve is not None else tablet_curve(design, ground, rules, record)
+    if curve is None:
+        return RequiredToe(None, None, demand, "The ground model leaves no room below the cut-off")
+    met = _ground_met(ground, record)
+    diameter, top = _geometry(design, record)
+    level = _level_on(curve, demand, met, diameter, top, design.pile_type, rules)
+    if level is None:
+        return RequiredToe(None, None, demand, f"{demand:.0f} kN is not reached in the ground model")
+    more = None
+    asbuilt = asbuilt_from_record(record) if record else None
+    if asbuilt is not None and asbuilt.toe_level is not None:
+        more = round(max(0.0, asbuilt.toe_level - level), 3)
+    where = "the ground met" if met is not ground else "the ground model"
+    return RequiredToe(level, more, demand,
+                       f"Design resistance reaches {demand:.0f} kN at {level:.2f} m on {where}")
+
+
+def clear_kept_levels() -> None:
+    """Forget the required levels kept between calls (``_level_on``, ``_confirmed_level``)."""
+    _level_on.cache_clear()
+    _confirmed_level.cache_clear()
+
+
+# --------------------------------------------------------------------------------------------
+# One pile's entry: the page and the bundle
+# --------------------------------------------------------------------------------------------
+
+def pile_entry(project_id: int, row, design: PileDesign, current: records.RecordVersion | None,
+               rules_version: int, curve: Any, curve_error: str,
+               required: RequiredToe) -> dict[str, Any]:
+    """The dict of one pile that the rig page and the bundle both carry (``curve`` is what the
+    caller puts there: the curve itself for the page, its key for the bundle)."""
+    return {
+        "mark": row.mark,
+        "project_id": project_id,
+        "version": current.version if current else 0,
+        "progress": row.progress,
+        "verdict": row.verdict,
+        "design": design_dict(design),
+        "record": current.record if current else {},
+        "result": current.answer() if current else None,
+        "load_kn": required.demand_kn if required.demand_kn is not None else design.compression,
+        "curve": curve,
+        "curve_error": curve_error,
+        "required_toe_level": required.level_m,
+        "rules_version": rules_version,
+    }
+
+
+def _curve_and_toe(design: PileDesign, ground: GroundModel, rules: Rules,
+                   current: records.RecordVersion | None,
+                   curve: CapacityCurve | None = None, error: str = "",
+                   memo: dict | None = None) -> tuple[CapacityCurve | None, str, RequiredToe]:
+    """The tablet's curve (design geometry on the ground model) and the required toe of the
+    pile as recorded so far. ``memo`` keeps the as-built curves of one bundle build (keyed by
+    every input they read)."""
+    if curve is None and not error:
+        try:
+            curve = tablet_curve(design, ground, rules)
+        except ValueError as exc:
+            error = str(exc)
+    record = current.record if current else {}
+    try:
+        asbuilt_curve = curve
+        if record.get("strata") or "cutoff_level" in record or record.get("diameter_mm"):
+            key = (id(ground), _geometry(design, record), design.pile_type,
+                   repr(record.get("strata")), record.get("platform_level"))
+            if memo is not None and key in memo:
+                asbuilt_curve = memo[key]
+            else:
+                asbuilt_curve = tablet_curve(design, ground, rules, record)
+                if memo is not None:
+                    memo[key] = asbuilt_curve
+        required = required_toe_for(design, record, ground, rules, asbuilt_curve)
+    except ValueError as exc:
+        error = error or str(exc)
+        required = RequiredToe(None, None, None, str(exc))
+    return curve, error, required
+
+
+def rig_data(conn: sqlite3.Connection, project_id: int, pile_row) -> dict[str, Any]:
+    """Everything the At the rig page (and the tablet's offline cache) needs for one pile.
+
+    Keys: those of ``pile_entry`` (``curve`` as {toe_levels, design} in m and kN for the design
+    geometry, or None), limits (limits_dict), ground_top, ground_bottom, layers (index,
+    material, levels: for picking the layer a stratum matches).
+    """
+    rule_set = projects.current_rules(conn, project_id)
+    design = pile_design(pile_row)
+    current = records.current(conn, pile_row.id)
+    ground = load_ground(conn, pile_row.ground_model_id)
+    curve, error, required = _curve_and_toe(design, ground, rule_set.rules, current)
+    out = pile_entry(project_id, pile_row, design, current, rule_set.version,
+                     curve_dict(curve) if curve is not None else None, error, required)
+    out["limits"] = limits_dict(rule_set.rules)
+    out.update(ground_dict(ground))
+    return out
+
+
+def build_bundle(conn: sqlite3.Connection, project) -> dict:
+    """Everything the tablet needs to record this project's piles offline (JSON-ready).
+
+    ``piles`` maps each mark to its ``pile_entry`` (as ``rig_data`` gives the page), except
+    that what many piles share is stored once: ``curve`` is a key of ``curves`` (one capacity
+    curve per ground model, diameter, top level and pile type, made by ``tablet_curve``),
+    ``ground`` a key of ``ground_models`` and ``limits`` sits at the top.
+    """
+    rule_set = projects.current_rules(conn, project.id)
+    rules = rule_set.rules
+    current = records.current_for_project(conn, project.id)
+    grounds: dict[str, dict] = {}
+    models: dict[int, GroundModel] = {}
+    curves: dict[str, dict] = {}
+    curve_keys: dict[tuple, tuple[str | None, CapacityCurve | None, str]] = {}
+    piles_out: dict[str, dict] = {}
+    memo: dict = {}
+    for row in piles_q.list_piles(conn, project.id, sort="mark"):
+        gkey = str(row.ground_model_id)
+        if gkey not in grounds:
+            models[row.ground_model_id] = load_ground(conn, row.ground_model_id)
+            grounds[gkey] = {"name": row.ground_model_name, **ground_dict(models[row.ground_model_id])}
+        ground = models[row.ground_model_id]
+        design = pile_design(row)
+        key = (row.ground_model_id, row.diameter_mm, row.cutoff_level_m, row.pile_type)
+        if key not in curve_keys:
+            curve, error = None, ""
+            try:
+                curve = tablet_curve(design, ground, rules)
+            except ValueError as exc:
+                error = str(exc)
+            ckey = None
+            if curve is not None:
+                ckey = f"c{len(curves) + 1}"
+                curves[ckey] = curve_dict(curve)
+            curve_keys[key] = (ckey, curve, error)
+        ckey, curve, error = curve_keys[key]
+        version = current.get(row.id)
+        _, error, required = _curve_and_toe(design, ground, rules, version, curve, error, memo)
+        entry = pile_entry(project.id, row, design, version, rule_set.version, ckey, error, required)
+        entry.update(ground=gkey, ground_model=row.ground_model_name,
+                     worst_utilisation=row.worst_utilisation)
+        piles_out[row.mark] = entry
+    return {
+        "format": 1,
+        "project": {"id": project.id, "name": project.name, "site": project.site,
+                    "datum": project.datum, "engineer": project.engineer},
+        "rules_version": rule_set.version,
+        "rules": rules.to_dict(),
+        "limits": limits_dict(rules),
+        "ground_models": grounds,
+        "curves": curves,
+        "piles": piles_out,
+    }
+
+
+RIG_KEYS = ("mark", "project_id", "version", "progress", "verdict", "design", "record", "result",
+            "load_kn", "curve", "curve_error", "required_toe_level", "rules_version", "limits",
+            "ground_top", "ground_bottom", "layers")
+
+
+def rig_data_from_bundle(bundle: dict, mark: str) -> dict | None:
+    """One pile's rig data (the shape of ``rig_data``) put back together from a bundle.
+
+    The same assembly as ``rigData`` in the tablet's script; None when the mark is not in it.
+    """
+    pile = bundle["piles"].get(mark)
+    if pile is None:
+        return None
+    ground = bundle["ground_models"][pile["ground"]]
+    out = {k: pile[k] for k in RIG_KEYS if k in pile}
+    out["curve"] = bundle["curves"][pile["curve"]] if pile["curve"] else None
+    out["limits"] = bundle["limits"]
+    out.update(ground_top=ground["ground_top"], ground_bottom=ground["ground_bottom"],
+               layers=ground["layers"])
+    return out
+
+
+# --------------------------------------------------------------------------------------------
+# The preview: a dry-run recheck
+# --------------------------------------------------------------------------------------------
+
+def preview(conn: sqlite3.Connection, project_id: int, pile_row, raw: Any) -> dict[str, Any]:
+    """What a save of this record body would answer, computed by design_core on the as-built
+    pile and the strata met; nothing is stored (no version, no audit entry).
+
+    Keys: verdict, checks (as the save's answer), required_toe_level and more_needed_m (m or
+    None, from ``required_toe_for``), required_toe_reason, worst_utilisation, borrowed, notes.
+    Raises ``record_input.RecordInvalid`` (422) as the save does.
+    """
+    done = saving.evaluate(conn, project_id, pile_row, raw)
+    try:
+        need = required_toe_for(done.inputs.design, done.clean, done.inputs.ground, done.inputs.rules)
+    except ValueError as exc:
+        need = RequiredToe(None, None, None, f"The required toe could not be worked out: {exc}")
+    return {
+        "verdict": done.verdict.verdict,
+        "checks": done.checks,
+        "required_toe_level": need.level_m,
+        "more_needed_m": need.more_needed_m,
+        "required_toe_reason": need.reason,
+        "worst_utilisation": done.verdict.worst_utilisation,
+        "borrowed": done.borrowed,
+        "notes": list(done.verdict.notes),
+    }
