@@ -266,3 +266,24 @@ def test_export_then_import_gives_the_same_data(app, project, people):
         assert first[key]["water"] == second[key]["water"]
         for ref, readings in first[key]["cpt"].items():
             assert second[key]["cpt"][ref] == [pytest.approx(r) for r in readings]
+
+
+def test_import_ags_command_imports_or_lists_every_problem(app, project, tmp_path):
+    import click
+    from click.testing import CliRunner
+
+    from fieldapp import import_cli
+
+    group = click.Group()
+    import_cli.register(group)
+    good, bad = tmp_path / "gi.ags", tmp_path / "bad.ags"
+    good.write_bytes(ags_file())
+    bad.write_bytes(BROKEN["a value not of its data type (rule 8)"][0](ags_file()))
+    runner = CliRunner()
+    refused = runner.invoke(group, ["import-ags", "--data", app.config["DATA_DIR"], str(project), str(bad)])
+    assert refused.exit_code == 1 and "GEOL_TOP" in refused.output and "Nothing imported" in refused.output
+    assert stored(app, project) == {}
+    done = runner.invoke(group, ["import-ags", "--data", app.config["DATA_DIR"], str(project), str(good)])
+    assert done.exit_code == 0, done.output
+    assert "3 location(s)" in done.output
+    assert sorted(stored(app, project)) == ["BH1", "BH2", "CPT1"]

@@ -164,3 +164,27 @@ def test_not_a_drawing_and_a_missing_layer_are_refused(app, project):
             layout_io.preview(conn, project, dxf(**LAYOUT), "FOUNDATIONS")
         with pytest.raises(layout_io.LayoutRefused):
             layout_io.preview(conn, project, b"this is not a drawing", "PILES")
+
+
+def test_import_layout_command_previews_then_applies(app, project, tmp_path):
+    import click
+    from click.testing import CliRunner
+
+    from fieldapp import import_cli
+
+    group = click.Group()
+    import_cli.register(group)
+    path = tmp_path / "site.dxf"
+    path.write_bytes(dxf(**LAYOUT))
+    args = ["import-layout", "--data", app.config["DATA_DIR"], str(project), str(path), "--layer", "PILES"]
+    runner = CliRunner()
+    before = schedule(app, project)
+    shown = runner.invoke(group, args)
+    assert shown.exit_code == 0, shown.output
+    assert "moved      A2" in shown.output and "by 50 mm" in shown.output and "Preview only" in shown.output
+    assert schedule(app, project) == before
+    no_template = runner.invoke(group, args + ["--apply"])
+    assert no_template.exit_code == 1 and schedule(app, project) == before
+    applied = runner.invoke(group, args + ["--apply", "--template", "A1"])
+    assert applied.exit_code == 0, applied.output
+    assert sorted(schedule(app, project)) == ["A1", "A2", "A3"]
