@@ -287,3 +287,81 @@ def test_import_ags_command_imports_or_lists_every_problem(app, project, tmp_pat
     assert done.exit_code == 0, done.output
     assert "3 location(s)" in done.output
     assert sorted(stored(app, project)) == ["BH1", "BH2", "CPT1"]
+
+
+@pytest.fixture
+def web(app, client, auth, people):
+    """The imports screens on the test app, signed in as the project's engineer."""
+    from fieldapp import imports
+
+    if "imports" not in app.blueprints:
+        app.register_blueprint(imports.bp)
+    auth.login(people["engineer"])
+    return auth
+
+
+def test_upload_screen_lists_problems_and_then_stores_the_file(app, client, web, project, people):
+    import io
+
+    url = f"/projects/{project}/ground/ags"
+    bad = BROKEN["a stratum below the final depth (our range)"][0](ags_file())
+    response = client.post(url, data={"csrf_token": web.token(), "file": (io.BytesIO(bad), "gi.ags")},
+                           content_type="multipart/form-data")
+    page = response.get_data(as_text=True)
+    assert response.status_code == 422 and "GEOL_BASE" in page and "Nothing imported" in page
+    assert "Caution." in page
+    assert stored(app, project) == {}
+    response = client.post(url, data={"csrf_token": web.token(), "file": (io.BytesIO(ags_file()), "gi.ags")},
+                           content_type="multipart/form-data")
+    assert response.status_code == 302
+    page = client.get(url).get_data(as_text=True)
+    assert "BH1" in page and "unconfirmed" in page and "32 at 9.00 m" in page
+    exported = client.get(f"{url}/export.ags")
+    assert exported.status_code == 200 and b'"GROUP","LOCA"' in exported.data
+
+
+def test_engineer_makes_a_ground_model_from_a_location_entering_the_parameters(app, client, web, project):
+    assert run(app, project, ags_file()).ok
+    with app.app_context():
+        bh1 = [x for x in loc_q.list_locations(db.get_db(), project) if x.loca_id == "BH1"][0]
+    url = f"/projects/{project}/ground/ags/{bh1.id}/model"
+    page = client.get(url).get_data(as_text=True)
+    assert 'value="93.5"' in page  # water: strike at 8.20 m rose to 6.50 m below 100.00 m
+    form = {"csrf_token": web.token(), "name": "BH1 zone", "water_level_m": "94",
+            "material_0": "ignore", "unit_weight_kn_m3_0": "18",
+            "material_1": "cohesive", "unit_weight_kn_m3_1": "19",
+            "material_2": "cohesionless", "unit_weight_kn_m3_2": "20", "phi_deg_2": "34"}
+    refused = client.post(url, data=form)  # no c_u for the cohesive layer: design_core refuses
+    assert refused.status_code == 400 and "cu" in refused.get_data(as_text=True)
+    with app.app_context():
+        assert ground.names(db.get_db(), project) == {}
+    done = client.post(url, data=dict(form, cu_kpa_1="60"))
+    assert done.status_code == 302
+    with app.app_context():
+        conn = db.get_db()
+        model = ground.by_name(conn, project, "BH1 zone")
+        assert [(x.top_level_m, x.bottom_level_m, x.material) for x in model.layers] == [
+            (100.0, 98.5, "ignore"), (98.5, 92.0, "cohesive"), (92.0, 80.0, "cohesionless")]
+        assert model.layers[1].cu_kpa == 60.0 and model.water_level_m == 94.0
+        assert loc_q.get_location(conn, project, bh1.id).ground_model_id == model.id
+
+
+def test_only_engineers_of_the_project_reach_the_screens(app, client, auth, people, project):
+    from fieldapp import imports
+
+    if "imports" not in app.blueprints:
+        app.register_blueprint(imports.bp)
+    for who, status in (("inspector", 403), ("viewer", 403), ("outsider", 404)):
+        auth.login(people[who])
+        assert client.get(f"/projects/{project}/ground/ags").status_code == status, who
+        assert client.get(f"/projects/{project}/piles/layout").status_code == status, who
+        auth.logout()
+
+
+def test_nearest_location_to_each_pile(app, project):
+    assert run(app, project, ags_file()).ok
+    with app.app_context():
+        conn = db.get_db()
+        loc, distance = loc_q.nearest(conn, project, 1003.0, 2004.0)
+        assert loc.loca_id == "BH1" and distance == pytest.approx(5.0)  # a 3-4-5 triangle
+        assert loc_q.nearest(conn, 999, 0.0, 0.0) is None

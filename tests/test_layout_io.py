@@ -188,3 +188,25 @@ def test_import_layout_command_previews_then_applies(app, project, tmp_path):
     applied = runner.invoke(group, args + ["--apply", "--template", "A1"])
     assert applied.exit_code == 0, applied.output
     assert sorted(schedule(app, project)) == ["A1", "A2", "A3"]
+
+
+def test_upload_preview_then_apply_on_the_screen(app, client, auth, people, project):
+    from fieldapp import imports
+
+    if "imports" not in app.blueprints:
+        app.register_blueprint(imports.bp)
+    auth.login(people["engineer"])
+    before = schedule(app, project)
+    response = client.post(f"/projects/{project}/piles/layout/preview", data={
+        "csrf_token": auth.token(), "layer": "PILES", "units": "", "text_distance_m": "1",
+        "file": (io.BytesIO(dxf(**LAYOUT)), "site.dxf")}, content_type="multipart/form-data")
+    page = response.get_data(as_text=True)
+    assert response.status_code == 200, page
+    assert "by 50 mm" in page and "Caution." in page and "Apply the whole drawing" in page
+    assert schedule(app, project) == before
+    import re
+    hidden = dict(re.findall(r'name="(sha256|fingerprint|filename|layer|units|text_distance_m)" value="([^"]*)"', page))
+    applied = client.post(f"/projects/{project}/piles/layout/apply",
+                          data=dict(hidden, csrf_token=auth.token(), template="A1"))
+    assert applied.status_code == 302, applied.get_data(as_text=True)
+    assert sorted(schedule(app, project)) == ["A1", "A2", "A3"]
