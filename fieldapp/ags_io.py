@@ -463,6 +463,18 @@ def _fmt(value, dtype: str) -> str:
     return str(value)
 
 
+# The headings Toeline reads and writes in each data group: (heading, unit, AGS4 data type).
+GROUP_COLUMNS = {
+    "LOCA": [("LOCA_ID", "", "ID"), ("LOCA_TYPE", "", "PA"), ("LOCA_NATE", "m", "2DP"), ("LOCA_NATN", "m", "2DP"), ("LOCA_GL", "m", "2DP"), ("LOCA_REM", "", "X"), ("LOCA_FDEP", "m", "2DP")],
+    "GEOL": [("LOCA_ID", "", "ID"), ("GEOL_TOP", "m", "2DP"), ("GEOL_BASE", "m", "2DP"), ("GEOL_DESC", "", "X"), ("GEOL_LEG", "", "PA"), ("GEOL_GEOL", "", "PA")],
+    "ISPT": [("LOCA_ID", "", "ID"), ("ISPT_TOP", "m", "2DP"), ("ISPT_NVAL", "", "0DP"), ("ISPT_REP", "", "X"), ("ISPT_ERAT", "%", "0DP"), ("ISPT_N60", "", "0DP")],
+    "SCPG": [("LOCA_ID", "", "ID"), ("SCPG_TESN", "", "X"), ("SCPG_TYPE", "", "PA"), ("SCPG_REM", "", "X")],
+    "SCPT": [("LOCA_ID", "", "ID"), ("SCPG_TESN", "", "X"), ("SCPT_DPTH", "m", "2DP"), ("SCPT_RES", "MPa", "3DP"), ("SCPT_FRES", "MPa", "4DP"), ("SCPT_PWP2", "MPa", "4DP")],
+    "WSTG": [("LOCA_ID", "", "ID"), ("WSTG_DPTH", "m", "2DP"), ("WSTG_SEAL", "m", "2DP"), ("WSTG_REM", "", "X")],
+    "WSTD": [("LOCA_ID", "", "ID"), ("WSTG_DPTH", "m", "2DP"), ("WSTD_NMIN", "min", "0DP"), ("WSTD_POST", "m", "2DP")],
+}
+
+
 def export_groups(conn, project_id: int) -> dict[str, tuple[list[tuple[str, str, str]], list[dict]]]:
     """The project's ground data as AGS4 groups: name -> ([(heading, unit, type)], [row dicts])."""
     project = projects.get(conn, project_id)
@@ -502,21 +514,14 @@ def export_groups(conn, project_id: int) -> dict[str, tuple[list[tuple[str, str,
             for minutes, depth in w["rises"]:
                 wstd.append({"LOCA_ID": loc.loca_id, "WSTG_DPTH": w["depth_m"], "WSTD_NMIN": minutes,
                              "WSTD_POST": depth})
-    spec = {
-        "LOCA": ([("LOCA_ID", "", "ID"), ("LOCA_TYPE", "", "PA"), ("LOCA_NATE", "m", "2DP"), ("LOCA_NATN", "m", "2DP"),
-                  ("LOCA_GL", "m", "2DP"), ("LOCA_REM", "", "X"), ("LOCA_FDEP", "m", "2DP")], loca),
-        "GEOL": ([("LOCA_ID", "", "ID"), ("GEOL_TOP", "m", "2DP"), ("GEOL_BASE", "m", "2DP"), ("GEOL_DESC", "", "X"),
-                  ("GEOL_LEG", "", "PA"), ("GEOL_GEOL", "", "PA")], geol),
-        "ISPT": ([("LOCA_ID", "", "ID"), ("ISPT_TOP", "m", "2DP"), ("ISPT_NVAL", "", "0DP"), ("ISPT_REP", "", "X"),
-                  ("ISPT_ERAT", "%", "0DP"), ("ISPT_N60", "", "0DP")], ispt),
-        "SCPG": ([("LOCA_ID", "", "ID"), ("SCPG_TESN", "", "X"), ("SCPG_TYPE", "", "PA"), ("SCPG_REM", "", "X")], scpg),
-        "SCPT": ([("LOCA_ID", "", "ID"), ("SCPG_TESN", "", "X"), ("SCPT_DPTH", "m", "2DP"), ("SCPT_RES", "MPa", "3DP"),
-                  ("SCPT_FRES", "MPa", "4DP"), ("SCPT_PWP2", "MPa", "4DP")], scpt),
-        "WSTG": ([("LOCA_ID", "", "ID"), ("WSTG_DPTH", "m", "2DP"), ("WSTG_SEAL", "m", "2DP"), ("WSTG_REM", "", "X")], wstg),
-        "WSTD": ([("LOCA_ID", "", "ID"), ("WSTG_DPTH", "m", "2DP"), ("WSTD_NMIN", "min", "0DP"),
-                  ("WSTD_POST", "m", "2DP")], wstd),
-    }
-    groups.update({name: value for name, value in spec.items() if value[1]})
+    data = {"LOCA": loca, "GEOL": geol, "ISPT": ispt, "SCPG": scpg, "SCPT": scpt, "WSTG": wstg, "WSTD": wstd}
+    groups.update({name: (GROUP_COLUMNS[name], rows) for name, rows in data.items() if rows})
+    return complete_groups(groups)
+
+
+def complete_groups(groups: dict) -> dict:
+    """Add the UNIT, TYPE and ABBR groups the data groups need (every unit, data type and
+    abbreviation used, described from the standard dictionary where it lists the code)."""
     standard = standard_abbreviations()
     abbr = {}
     for cols, rows in groups.values():

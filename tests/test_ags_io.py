@@ -365,3 +365,25 @@ def test_nearest_location_to_each_pile(app, project):
         loc, distance = loc_q.nearest(conn, project, 1003.0, 2004.0)
         assert loc.loca_id == "BH1" and distance == pytest.approx(5.0)  # a 3-4-5 triangle
         assert loc_q.nearest(conn, 999, 0.0, 0.0) is None
+
+
+def test_demo_file_passes_the_checker_and_gives_the_demo_ground_models(app, project):
+    from fieldapp import demo, demo_ags
+
+    data = demo_ags.ags_bytes()
+    assert ags_io.checker_errors(data.decode()) == []
+    made = demo_ags.ground_models(data)
+    # the demo's ground models (demo.GROUND_MODELS, typed by hand) agree with the file's strata
+    assert [(name, water) for name, _, water, _ in made] == [(n, w) for n, _, w, _ in demo.GROUND_MODELS]
+    for (_, _, _, layers), (_, _, _, typed) in zip(made, demo.GROUND_MODELS, strict=True):
+        assert [(x["top_level_m"], x["bottom_level_m"], x["material"]) for x in layers] == [
+            (x["top_level_m"], x["bottom_level_m"], x["material"]) for x in typed]
+    with app.app_context():
+        conn = db.get_db()
+        with db.write(conn):
+            for name, description, water, layers in made:
+                ground.save_model(conn, project, name, water, layers, description)
+        result = demo_ags.load(conn, project, app.config["DATA_DIR"])
+        assert len(result.locations) == 8 and result.cpt > 100
+        linked = {loc.loca_id for loc in loc_q.list_locations(conn, project) if loc.ground_model_id}
+        assert linked == {"N1", "E1", "S1"}
