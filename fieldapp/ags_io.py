@@ -171,9 +171,30 @@ def checker_errors(text: str) -> list[AgsError]:
             if not isinstance(line, int):
                 named = re.search(r"\bLine (\d+)", desc)
                 line = int(named.group(1)) if named else 0
+            value_at = re.match(r'"(.*)" under (\w+) in (\w+)', desc)
+            if not line and value_at:
+                line = _line_of_value(text, value_at.group(3), value_at.group(2), value_at.group(1))
             errors.append(AgsError(str(item.get("group") or ""), heading.group(1) if heading else "",
                                    line, f"{rule}: {desc}"))
     return errors
+
+
+def _line_of_value(text: str, group: str, heading: str, value: str) -> int:
+    """The first DATA line of ``group`` whose ``heading`` holds ``value`` (0 when none)."""
+    import csv
+
+    current, column = "", None
+    for number, cells in enumerate(csv.reader(io.StringIO(text)), start=1):
+        if not cells:
+            continue
+        if cells[0] == "GROUP":
+            current, column = (cells[1] if len(cells) > 1 else ""), None
+        elif cells[0] == "HEADING" and current == group:
+            column = cells.index(heading) if heading in cells else None
+        elif cells[0] == "DATA" and current == group and column is not None and column < len(cells):
+            if cells[column] == value:
+                return number
+    return 0
 
 
 def _tables(text: str):

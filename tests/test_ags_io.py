@@ -162,7 +162,7 @@ BROKEN = {
         "Rule 10c", "GEOL", "", '"DATA","BH9"'),
     "a legend code not in ABBR (rule 16)": (
         lambda d: d.replace(b'"DATA","GEOL_LEG","401","SAND"\r\n', b''),
-        "Rule 16", "GEOL", "GEOL_LEG", None),
+        "Rule 16", "GEOL", "GEOL_LEG", '"DATA","BH1","8.00","20.00"'),
     "a unit not in UNIT (rule 15)": (
         lambda d: d.replace(b'"DATA","min","minute"\r\n', b''),
         "Rule 15", "UNIT", "", None),
