@@ -486,13 +486,20 @@ def _fmt(value, dtype: str) -> str:
 
 # The headings Toeline reads and writes in each data group: (heading, unit, AGS4 data type).
 GROUP_COLUMNS = {
-    "LOCA": [("LOCA_ID", "", "ID"), ("LOCA_TYPE", "", "PA"), ("LOCA_NATE", "m", "2DP"), ("LOCA_NATN", "m", "2DP"), ("LOCA_GL", "m", "2DP"), ("LOCA_REM", "", "X"), ("LOCA_FDEP", "m", "2DP")],
-    "GEOL": [("LOCA_ID", "", "ID"), ("GEOL_TOP", "m", "2DP"), ("GEOL_BASE", "m", "2DP"), ("GEOL_DESC", "", "X"), ("GEOL_LEG", "", "PA"), ("GEOL_GEOL", "", "PA")],
-    "ISPT": [("LOCA_ID", "", "ID"), ("ISPT_TOP", "m", "2DP"), ("ISPT_NVAL", "", "0DP"), ("ISPT_REP", "", "X"), ("ISPT_ERAT", "%", "0DP"), ("ISPT_N60", "", "0DP")],
+    "LOCA": [("LOCA_ID", "", "ID"), ("LOCA_TYPE", "", "PA"), ("LOCA_NATE", "m", "2DP"),
+             ("LOCA_NATN", "m", "2DP"), ("LOCA_GL", "m", "2DP"), ("LOCA_REM", "", "X"),
+             ("LOCA_FDEP", "m", "2DP")],
+    "GEOL": [("LOCA_ID", "", "ID"), ("GEOL_TOP", "m", "2DP"), ("GEOL_BASE", "m", "2DP"),
+             ("GEOL_DESC", "", "X"), ("GEOL_LEG", "", "PA"), ("GEOL_GEOL", "", "PA")],
+    "ISPT": [("LOCA_ID", "", "ID"), ("ISPT_TOP", "m", "2DP"), ("ISPT_NVAL", "", "0DP"),
+             ("ISPT_REP", "", "X"), ("ISPT_ERAT", "%", "0DP"), ("ISPT_N60", "", "0DP")],
     "SCPG": [("LOCA_ID", "", "ID"), ("SCPG_TESN", "", "X"), ("SCPG_TYPE", "", "PA"), ("SCPG_REM", "", "X")],
-    "SCPT": [("LOCA_ID", "", "ID"), ("SCPG_TESN", "", "X"), ("SCPT_DPTH", "m", "2DP"), ("SCPT_RES", "MPa", "3DP"), ("SCPT_FRES", "MPa", "4DP"), ("SCPT_PWP2", "MPa", "4DP")],
-    "WSTG": [("LOCA_ID", "", "ID"), ("WSTG_DPTH", "m", "2DP"), ("WSTG_SEAL", "m", "2DP"), ("WSTG_REM", "", "X")],
-    "WSTD": [("LOCA_ID", "", "ID"), ("WSTG_DPTH", "m", "2DP"), ("WSTD_NMIN", "min", "0DP"), ("WSTD_POST", "m", "2DP")],
+    "SCPT": [("LOCA_ID", "", "ID"), ("SCPG_TESN", "", "X"), ("SCPT_DPTH", "m", "2DP"),
+             ("SCPT_RES", "MPa", "3DP"), ("SCPT_FRES", "MPa", "4DP"), ("SCPT_PWP2", "MPa", "4DP")],
+    "WSTG": [("LOCA_ID", "", "ID"), ("WSTG_DPTH", "m", "2DP"), ("WSTG_SEAL", "m", "2DP"),
+             ("WSTG_REM", "", "X")],
+    "WSTD": [("LOCA_ID", "", "ID"), ("WSTG_DPTH", "m", "2DP"), ("WSTD_NMIN", "min", "0DP"),
+             ("WSTD_POST", "m", "2DP")],
 }
 
 
