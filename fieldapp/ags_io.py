@@ -416,7 +416,7 @@ def _keep(data_dir: str | Path, sha256: str, data: bytes) -> None:
     if path.exists():
         return
     path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_suffix(".tmp")
+    tmp = path.parent / f".tmp-{path.name}"  # as the photos: a backup skips .tmp-* files
     tmp.write_bytes(data)
     tmp.replace(path)
 

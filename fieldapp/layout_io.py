@@ -248,7 +248,7 @@ def keep(data_dir: str | Path, data: bytes) -> str:
     path = layout_path(data_dir, sha)
     if not path.exists():
         path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = path.with_suffix(".tmp")
+        tmp = path.parent / f".tmp-{path.name}"  # as the photos: a backup skips .tmp-* files
         tmp.write_bytes(data)
         tmp.replace(path)
     return sha
