@@ -387,3 +387,13 @@ def test_demo_file_passes_the_checker_and_gives_the_demo_ground_models(app, proj
         assert len(result.locations) == 8 and result.cpt > 100
         linked = {loc.loca_id for loc in loc_q.list_locations(conn, project) if loc.ground_model_id}
         assert linked == {"N1", "E1", "S1"}
+
+
+def test_an_spt_refusal_keeps_its_reported_text_without_an_n(app, project):
+    data = ags_file(ispt=[["BH1", "9.00", "", "50/75 mm", "60"]])
+    assert run(app, project, data).ok
+    assert stored(app, project)["BH1"]["spt"] == [(9.0, None, 60.0)]
+    with app.app_context():
+        conn = db.get_db()
+        loc = [x for x in loc_q.list_locations(conn, project) if x.loca_id == "BH1"][0]
+        assert loc_q.spt(conn, loc.id)[0]["reported"] == "50/75 mm"

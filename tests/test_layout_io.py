@@ -210,3 +210,17 @@ def test_upload_preview_then_apply_on_the_screen(app, client, auth, people, proj
                           data=dict(hidden, csrf_token=auth.token(), template="A1"))
     assert applied.status_code == 302, applied.get_data(as_text=True)
     assert sorted(schedule(app, project)) == ["A1", "A2", "A3"]
+
+
+def test_apply_refuses_when_the_schedule_changed_since_the_preview(app, project):
+    data = dxf(**LAYOUT)
+    with app.app_context():
+        conn = db.get_db()
+        seen = layout_io.preview(conn, project, data, "PILES").fingerprint()
+        row = piles.get_pile(conn, project, "A2")
+        with db.write(conn):
+            piles.save_pile(conn, project, dict(piles.as_values(row), easting_m=111.0), row.id)
+        _, outcome = layout_io.apply_layout(conn, project, data, "site.dxf", "PILES", None, 1.0, "A1", "test",
+                                            app.config["DATA_DIR"], fingerprint=seen)
+    assert not outcome.ok and "changed since the preview" in outcome.errors[0].message
+    assert sorted(schedule(app, project)) == ["A1", "A2"] and schedule(app, project)["A2"][0] == 111.0
