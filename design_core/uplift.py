@@ -214,7 +214,7 @@ def cone_pullout(inp: ConeInput, rules: Rules | None = None) -> ConeResult:
         gamma = float(np.interp(a, z, s) - np.interp(b, z, s)) / (b - a)   # gamma' on the piece
         # Simpson's rule: exact, the ring area is quadratic in level
         weight += gamma * (b - a) / 6.0 * (ring(a) + 4.0 * ring(0.5 * (a + b)) + ring(b))
-    h = inp.surface_level - inp.toe_level
+    h = float(inp.surface_level) - float(inp.toe_level)
     r_top = r0 + h * tan_t
     tau = inp.cone_shear_kpa or 0.0
     shear = tau * math.pi * (r0 + r_top) * h
