@@ -177,7 +177,7 @@ def _g_at(layers: Sequence[ModulusLayer], level: float, below: bool) -> float:
     Below the last layer (the toe at the bottom of the layers) the last layer's bottom value.
     """
     for layer in layers:
-        inside = (layer.bottom <= level < layer.top) if below else (layer.bottom < level <= layer.top)
+        inside = (layer.bottom < level <= layer.top) if below else (layer.bottom <= level < layer.top)
         if inside:
             return layer.g_at(level)
     return layers[-1].g_at(layers[-1].bottom)

@@ -96,6 +96,18 @@ def test_length_standing_free_adds_elastic_shortening():
     assert res.head_settlement_mm == pytest.approx(2.5455 + 0.2358, abs=3e-3)
 
 
+def test_toe_on_a_layer_boundary_takes_g_above_and_below():
+    # Definition of the closed form's G_L (just above the toe) and G_b (just below): a toe at
+    # the boundary of 20 MPa over 80 MPa gives G_L 20 000, G_b 80 000, xi 0.25; end bearing
+    # on the stiffer layer takes a larger share than in uniform ground
+    layers = (ModulusLayer(0.0, -20.0, 20_000.0), ModulusLayer(-20.0, -40.0, 80_000.0))
+    res = pile_settlement(SettlementInput(1000.0, 0.6, 0.0, -20.0, layers))
+    assert (res.g_l, res.g_b, res.xi) == pytest.approx((20_000.0, 80_000.0, 0.25))
+    uniform = pile_settlement(SettlementInput(1000.0, 0.6, 0.0, -20.0, UNIFORM))
+    assert res.base_load_fraction > uniform.base_load_fraction
+    assert res.head_settlement_mm < uniform.head_settlement_mm
+
+
 def test_shear_modulus_from_young():
     # Definition of an isotropic elastic solid: G = E / (2 (1 + nu)) = 52 000 / 2.6 = 20 000 kPa
     assert shear_modulus(52_000.0, 0.3) == pytest.approx(20_000.0)
