@@ -102,8 +102,8 @@ class SettlementInput:
 
     load_kn: working axial load at the head (kN, 0-1e5); diameter (m, 0.1-5) and
     base_diameter (m, None: as the shaft); head_level and toe_level (m); layers: ModulusLayer
-    top down and contiguous, the first layer's top at or below the head (above it the pile
-    stands free); pile_modulus_mpa E_p (MPa); nu Poisson's ratio of the soil (0-0.5).
+    top down and contiguous (clipped at the head; where the first layer's top is below the
+    head, the pile stands free above it); pile_modulus_mpa E_p (MPa); nu Poisson's ratio of the soil (0-0.5).
     """
 
     load_kn: float
@@ -136,9 +136,6 @@ class SettlementInput:
                 raise ValueError(f"layers must be top-down and contiguous: layers[{i}].top "
                                  f"({layer.top:g} m) differs from layers[{i - 1}].bottom")
         top, bottom = self.layers[0].top, self.layers[-1].bottom
-        if top > self.head_level + LEVEL_TOL_M:
-            raise ValueError(f"layers[0].top ({top:g} m) must not be above head_level "
-                             f"({self.head_level:g} m): cut the layers at the head")
         if not bottom - LEVEL_TOL_M <= self.toe_level < top:
             raise ValueError(f"toe_level ({self.toe_level:g} m) must lie within the layers "
                              f"({top:g} to {bottom:g} m)")

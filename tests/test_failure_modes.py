@@ -105,6 +105,16 @@ def test_results_serialise_to_json():
         assert data["reason"]
 
 
+def test_settlement_layers_above_the_head_are_clipped():
+    # The layers of a ground model may start above the cut-off: only the part below the head
+    # counts, so the result equals that of layers cut at the head.
+    high = (settlement.ModulusLayer(5.0, -30.0, 2e4),)
+    cut = (settlement.ModulusLayer(0.0, -30.0, 2e4),)
+    a = settlement.pile_settlement(settlement.SettlementInput(800.0, 0.6, 0.0, -15.0, high))
+    b = settlement.pile_settlement(settlement.SettlementInput(800.0, 0.6, 0.0, -15.0, cut))
+    assert a.head_settlement_mm == b.head_settlement_mm and a.free_length == 0.0
+
+
 def test_settlement_too_short_for_the_solution_is_not_checked():
     # A pile so short that r_m falls inside r_0 (L 0.2 m, D 1.0 m): the method does not apply.
     layers = (settlement.ModulusLayer(0.0, -1.0, 2e4),)
