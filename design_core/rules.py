@@ -23,6 +23,7 @@ ALPHA_RULES = ("api", "power")
 K_RULES = ("jaky", "fixed")
 NQ_RULES = ("reissner", "fixed")
 LOAD_BASES = ("working", "factored")
+TOLERANCE_RULE_SETS = ("ice_sperw", "en_1536")
 
 
 def _rule(default: Any, label: str, unit: str, source: str, lo: float | None = None,
@@ -532,6 +533,107 @@ class Rules:
         3.0, "Helix spacing for individual bearing, least, in helix diameters", "D",
         "Hoyt & Clemence (1989): helices 3 diameters or more apart act individually (secondary); "
         "closer helices act as a cylinder.", 1.0, 10.0)
+
+    # --- failure modes: settlement, downdrag, group, buckling, swelling, cone, tolerances ----
+    settlement_limit_mm: float = _rule(
+        10.0, "Head settlement under the working load, most allowed", "mm",
+        "Common practice for a single pile at working load (10 mm); set from the structural "
+        "engineer's tolerance.", 1.0, 200.0)
+    settlement_limit_diameters: float = _rule(
+        0.0, "Head settlement limit as a fraction of D (0: not used)", "D",
+        "Common practice: 1 % of D is a usual alternative (0.01); when set, the lesser of the "
+        "two limits governs.", 0.0, 0.2)
+    pile_modulus_mpa: float = _rule(
+        30_000.0, "Young's modulus of the pile E_p", "MPa",
+        "EN 1992-1-1 Table 3.1 gives E_cm 30-35 GPa for C25/30-C40/50 (from memory); 30 GPa "
+        "is common practice for the long-term shaft of a bored pile.", 5_000.0, 210_000.0)
+    soil_poisson_ratio: float = _rule(
+        0.3, "Poisson's ratio of the soil nu (settlement)", "",
+        "Common practice: 0.3 drained, 0.5 undrained (Fleming et al., Piling Engineering, "
+        "ch. 6; from memory).", 0.0, 0.5)
+    dragload_factor: float = _rule(
+        1.4, "Load factor on the dragload in the structural check", "",
+        "AASHTO LRFD Table 3.4.1-2, downdrag DD, piles by the alpha method: 1.4 at most (from "
+        "memory). Fellenius combines the dragload with the permanent load only, unfactored; "
+        "1.0 reproduces that.", 1.0, 2.0)
+    block_fs: float = _rule(
+        2.5, "Factor of safety on block failure of a group (working stress)", "",
+        "Common practice: 2.5-3 on the ultimate block capacity (Tomlinson, Pile Design and "
+        "Construction Practice; from memory).", 1.0, 10.0)
+    block_nc_max: float = _rule(
+        9.0, "Upper limit of N_c for the base of a block", "",
+        "Skempton (1951): N_c = 5(1 + 0.2 D/B)(1 + 0.2 B/L), D/B taken at most 2.5, so N_c "
+        "<= 9 (secondary source).", 5.0, 9.0)
+    buckling_ei_factor: float = _rule(
+        0.4, "Effective EI for buckling as a fraction of E_p I_g", "",
+        "ACI 318-19 6.6.4.4.4(a): EI_eff = 0.4 E_c I_g / (1 + beta_dns), beta_dns = 0 taken "
+        "(from memory).", 0.1, 1.0)
+    buckling_stiffness_factor: float = _rule(
+        0.75, "Fraction of the Euler load the factored load may reach", "",
+        "ACI 318-19 6.6.4.5.2: P_u < 0.75 P_c, the stiffness reduction factor (from memory).",
+        0.3, 1.0)
+    buckling_k_free: float = _rule(
+        2.1, "Effective length factor, head free (cantilever from the point of fixity)", "",
+        "Theory 2.0; AISC 360 Commentary Table C-A-7.1 recommends 2.1 for design (from "
+        "memory).", 1.0, 3.0)
+    buckling_k_fixed: float = _rule(
+        1.2, "Effective length factor, head fixed in rotation, free to sway", "",
+        "Theory 1.0; AISC 360 Commentary Table C-A-7.1 recommends 1.2 for design (from "
+        "memory).", 0.5, 3.0)
+    fixity_r_factor: float = _rule(
+        1.4, "Depth to fixity over R, soil modulus constant with depth", "R",
+        "Davisson & Robinson (1965): about 1.4 R, R = (E_p I / k_h)^(1/4) (from memory).",
+        0.5, 5.0)
+    fixity_t_factor: float = _rule(
+        1.8, "Depth to fixity over T, soil modulus rising linearly with depth", "T",
+        "Davisson & Robinson (1965): about 1.8 T, T = (E_p I / n_h)^(1/5) (from memory).",
+        0.5, 5.0)
+    swell_shaft_coefficient: float = _rule(
+        0.5, "Uplift friction over swell pressure in the swelling zone", "",
+        "Engineer's input, common practice: f_sw = coefficient x lateral swell pressure (the "
+        "tangent of the interface friction angle). Not used when a unit uplift friction is "
+        "given.", 0.05, 1.5)
+    cone_half_angle_deg: float = _rule(
+        30.0, "Half-angle of the pull-out cone from the toe, from the vertical", "deg",
+        "Common practice: 30 degrees for fissured rock and stiff fissured clay (Tomlinson, "
+        "Pile Design and Construction Practice, uplift of rock sockets; from memory).",
+        0.0, 60.0)
+    tolerance_rule_set: str = _rule(
+        "ice_sperw", "Tolerance rule set", "",
+        "ice_sperw: ICE Specification for Piling and Embedded Retaining Walls, 2nd ed., Table "
+        "B1.4. en_1536: EN 1536:2010 section 8 (from memory).", choices=TOLERANCE_RULE_SETS)
+    position_allowance_per_m_mm: float = _rule(
+        0.0, "Position allowance per metre of cut-off below the commencing surface (0: the "
+        "permitted inclination)", "mm/m",
+        "ICE SPERW 2nd ed. Table B1.4: 75 mm plus an allowance for rake and verticality below "
+        "the commencing surface (secondary source); 0 takes the pile's permitted inclination "
+        "(13.3 mm/m at 1 in 75). Check against the edition used.", 0.0, 100.0)
+    rake_boundary: float = _rule(
+        1.0 / 6.0, "Rake dividing the two raking tolerances (horizontal/vertical)", "",
+        "ICE SPERW 2nd ed. Table B1.4: rakes up to 1:6 and over 1:6 (secondary source).",
+        0.01, 1.0)
+    rake_tolerance_shallow: float = _rule(
+        1.0 / 25.0, "Deviation from the design rake, rake up to the boundary", "",
+        "ICE SPERW 2nd ed. Table B1.4: 1 in 25 (secondary source).", 0.001, 0.2)
+    rake_tolerance_steep: float = _rule(
+        1.0 / 15.0, "Deviation from the design rake, rake over the boundary", "",
+        "ICE SPERW 2nd ed. Table B1.4: 1 in 15 (secondary source).", 0.001, 0.3)
+    en1536_position_small_mm: float = _rule(
+        100.0, "EN 1536 plan position, D up to 1.0 m", "mm",
+        "EN 1536:2010 section 8: e <= 0.10 m for D <= 1.0 m (from memory; some summaries read "
+        "0.1 D here: check the edition used).", 5.0, 500.0)
+    en1536_position_fraction: float = _rule(
+        0.1, "EN 1536 plan position, 1.0 m < D <= 1.5 m, as a fraction of D", "D",
+        "EN 1536:2010 section 8: e <= 0.1 D (from memory).", 0.01, 0.5)
+    en1536_position_large_mm: float = _rule(
+        150.0, "EN 1536 plan position, D over 1.5 m", "mm",
+        "EN 1536:2010 section 8: e <= 0.15 m (from memory).", 5.0, 500.0)
+    en1536_inclination_vertical: float = _rule(
+        0.02, "EN 1536 inclination, vertical piles and rakes n >= 15", "",
+        "EN 1536:2010 section 8: 0.02 (from memory).", 0.001, 0.2)
+    en1536_inclination_raking: float = _rule(
+        0.04, "EN 1536 inclination, rakes 4 <= n < 15", "",
+        "EN 1536:2010 section 8: 0.04 (from memory).", 0.001, 0.3)
 
     def __post_init__(self):
         for f in fields(self):
