@@ -39,6 +39,16 @@ SHAFT_FRICTION_RANGE = (0.0, 5_000.0)  # kPa, ultimate
 BASE_PRESSURE_RANGE = (0.0, 100_000.0)  # kPa, ultimate
 
 
+def cu_linear(cu_top, cu_bottom, top, bottom, level):
+    """c_u (kPa) at ``level`` (m) in a layer from ``top`` to ``bottom`` (m) whose c_u runs
+    linearly from ``cu_top`` to ``cu_bottom``; levels outside the layer take the value at the
+    nearer end. Vectorised over every argument (numpy broadcasting). The one c_u interpolation
+    of design_core: the shaft, the base, the lateral springs and Broms all read c_u here."""
+    frac = (top - level) / (top - bottom)
+    frac = min(1.0, max(0.0, frac)) if isinstance(frac, float) else np.clip(frac, 0.0, 1.0)
+    return cu_top + (cu_bottom - cu_top) * frac
+
+
 @dataclass(frozen=True)
 class Layer:
     """One layer of a ground model.
@@ -124,9 +134,9 @@ class Layer:
         if self.cu is None:
             return np.full_like(np.asarray(level, dtype=float), np.nan) if np.ndim(level) else math.nan
         cu_bot = self.cu if self.cu_bottom is None else self.cu_bottom
-        frac = np.clip((self.top - np.asarray(level, dtype=float)) / self.thickness, 0.0, 1.0)
-        out = self.cu + (cu_bot - self.cu) * frac
-        return float(out) if np.ndim(out) == 0 else out
+        if np.ndim(level) == 0:
+            return float(cu_linear(self.cu, cu_bot, self.top, self.bottom, float(level)))
+        return cu_linear(self.cu, cu_bot, self.top, self.bottom, np.asarray(level, dtype=float))
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready dict of the layer."""

@@ -230,3 +230,13 @@ class CapGroup:
             raise ValueError(f"cap {self.mark} has no piles")
         for name in ("n", "mx", "my", "hx", "hy"):
             number(name, getattr(self, name), -1e7, 1e7)
+
+    @property
+    def load_xy(self) -> tuple[float, float]:
+        """Where the cap's loads act (easting, northing, m): ``load_point`` when given, else the
+        centroid of the piles' design positions."""
+        if self.load_point is not None:
+            return self.load_point
+        k = len(self.piles)
+        return (sum(p.design_xy[0] for p in self.piles) / k,
+                sum(p.design_xy[1] for p in self.piles) / k)

@@ -28,6 +28,26 @@ CHECK_CODES = (
     "cage_length",
 )
 
+# Each check in plain words, for screens and the PDF (the codes stay in the API, CSV and audit).
+CHECK_LABELS = {
+    "axial_compression": "Compression resistance",
+    "axial_tension": "Uplift resistance",
+    "structural": "Pile section strength",
+    "lateral": "Lateral load and head deflection",
+    "group_share": "Share of the cap load",
+    "durability_cover": "Cover for exposure class",
+    "durability_grade": "Concrete grade for exposure class",
+    "position": "Position at cut-off",
+    "inclination": "Inclination",
+    "cutoff_level": "Cut-off level",
+    "toe_level": "Toe level",
+    "diameter": "Diameter",
+    "base_debris": "Base debris",
+    "concrete_volume": "Concrete volume",
+    "concrete_time": "Time from batching to discharge",
+    "cage_length": "Cage length",
+}
+
 MEETS_DESIGN = "meets design"
 NEEDS_ENGINEER = "needs engineer"
 
