@@ -9,7 +9,8 @@
 * the toe (``platform_level`` - ``measured_depth``; no stand-in);
 * the ground under the pile, rebuilt from the strata logged (``ground_from_strata``) when
   ``platform_level`` and the toe were recorded; the notes say which layer each stratum
-  borrowed from.
+  borrowed from. The base takes the stratum met at the toe when the strata reach it
+  (``strata_for_base``; ``base_stratum``).
 
 ``prepare`` also checks the inputs' types. Levels in m, lengths in mm where named so.
 """
@@ -17,11 +18,33 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from design_core.ground import LEVEL_TOL_M, GroundModel, ground_from_strata
-from design_core.inputs import AsBuilt, CapGroup, PileDesign
+from design_core.inputs import AsBuilt, CapGroup, PileDesign, StratumMet
 from design_core.rules import Rules
+
+BASE_STRATUM_M = 0.001   # a stratum logged down to the toe is taken on this far below it
+
+
+def strata_for_base(strata, depth: float) -> tuple[tuple[StratumMet, ...], StratumMet | None]:
+    """The strata to rebuild the ground from for a toe ``depth`` m below the platform, and the
+    stratum met at the toe (None when the strata stop above it).
+
+    The base takes the ground just below the toe. A stratum logged across the toe (from above
+    it to below it) or starting at it is that ground already. A stratum logged down to the toe
+    and no further is taken on ``BASE_STRATUM_M`` below it: what the inspector saw at the base
+    is the stratum the base sits on. Otherwise the ground model gives the base.
+    """
+    strata = tuple(strata)
+    for s in strata:
+        if s.from_depth <= depth + LEVEL_TOL_M and s.to_depth > depth + LEVEL_TOL_M:
+            return strata, s
+    for k, s in enumerate(strata):
+        if abs(s.to_depth - depth) <= LEVEL_TOL_M:
+            longer = replace(s, to_depth=depth + BASE_STRATUM_M)
+            return strata[:k] + (longer,) + strata[k + 1:], s
+    return strata, None
 
 
 def fmt_m(x: float) -> str:
@@ -58,6 +81,7 @@ class AsBuiltPile:
     borrowed: list = field(default_factory=list)
     notes: list = field(default_factory=list)
     ground_error: str | None = None
+    base_stratum: StratumMet | None = None
 
 
 def as_built_pile(design: PileDesign, asbuilt: AsBuilt, ground: GroundModel,
@@ -92,14 +116,21 @@ def as_built_pile(design: PileDesign, asbuilt: AsBuilt, ground: GroundModel,
             notes.append(f"Strata were logged but {missing} was not recorded: the ground model "
                          "is used as it stands")
         else:
+            depth = asbuilt.measured_depth
+            used, at_toe = strata_for_base(asbuilt.strata, depth)
+            clip = toe - BASE_STRATUM_M if at_toe is not None else toe
             try:
-                new, borrowed = ground_from_strata(ground, asbuilt.platform_level, asbuilt.strata,
-                                                   max(toe, ground.bottom))
+                new, borrowed = ground_from_strata(ground, asbuilt.platform_level, used,
+                                                   max(clip, ground.bottom))
             except ValueError as exc:
                 pile.ground_error = f"The strata met could not be placed in the ground model: {exc}"
                 notes.append(pile.ground_error)
             else:
+                # each Borrowed keeps the depths as logged
+                borrowed = [replace(b, from_depth=s.from_depth, to_depth=s.to_depth)
+                            for b, s in zip(borrowed, asbuilt.strata, strict=True)]
                 pile.ground, pile.borrowed, pile.rebuilt = new, borrowed, True
+                pile.base_stratum = at_toe
                 for b in borrowed:
                     notes.append(f"Stratum {b.from_depth:g}-{b.to_depth:g} m ({b.material}): "
                                  f"{b.reason}")

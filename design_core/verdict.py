@@ -50,11 +50,15 @@ depends on whether one was kept.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, Iterable
 
-from design_core.asbuilt import AsBuiltPile, prepare, toe_problem
-from design_core.axial import CapacityCurve, prime_capacity_points
+import numpy as np
+
+from design_core.asbuilt import AsBuiltPile, fmt_m, prepare, toe_problem
+from design_core.axial import (
+    CapacityCurve, capacity_curve, curve_levels, prime_capacity_points, required_toe_level,
+)
 from design_core.checks.capacity import (
     axial_at_toe, check_compression, check_group, check_tension,
 )
@@ -67,9 +71,10 @@ from design_core.checks.results import PileVerdict
 from design_core.checks.tolerances import (
     check_cage, check_cutoff, check_diameter, check_inclination, check_position, check_toe,
 )
-from design_core.ground import GroundModel
+from design_core.ground import LEVEL_TOL_M, GroundModel, ground_from_strata
 from design_core.inputs import AsBuilt, CapGroup, PileDesign
 from design_core.lateral_springs import solve_together
+from design_core.loads import axial_demand, basis
 from design_core.rules import Rules
 
 
@@ -181,3 +186,132 @@ def recheck_project(items: Iterable, rules: Rules | None = None,
         group = groups.get(pile.design.cap) if pile.design.cap else None
         out[pile.design.mark] = _run(pile, group)
     return out
+
+
+# --------------------------------------------------------------------------------------------
+# The toe the pile needs
+# --------------------------------------------------------------------------------------------
+
+REQUIRED_SCAN_STEP_M = 0.05   # the scan before the exact search
+REQUIRED_TOL_M = 1e-4         # the exact search stops within this of the level
+
+
+@dataclass(frozen=True)
+class RequiredToe:
+    """Where the pile's design compression resistance first reaches its demand.
+
+    ``level_m`` (m) the highest toe level at which the axial_compression check is ok, or None
+    when no level in the ground model reaches the demand (or the pile carries no compression);
+    ``more_needed_m`` (m, >= 0) how much deeper than the as-built toe that is, None when the
+    as-built toe was not given or no level was found; ``demand_kn`` the demand on the basis of
+    the resistance (as the check); ``reason`` one line saying how it was found.
+    """
+
+    level_m: float | None
+    more_needed_m: float | None
+    demand_kn: float
+    reason: str
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain JSON-ready dict."""
+        return {"level_m": self.level_m, "more_needed_m": self.more_needed_m,
+                "demand_kn": self.demand_kn, "reason": self.reason}
+
+
+def _record_at(asbuilt: AsBuilt, ground: GroundModel, level: float) -> AsBuilt:
+    """The record with its toe moved to ``level`` (m): the same platform (the ground surface
+    when none was recorded, and then without strata, which need the platform)."""
+    if asbuilt.platform_level is None:
+        return replace(asbuilt, platform_level=ground.top, measured_depth=ground.top - level,
+                       strata=())
+    return replace(asbuilt, measured_depth=asbuilt.platform_level - level)
+
+
+def _resistance_at(design, asbuilt, ground, rules, level: float) -> float | None:
+    """The design resistance (kN) the axial_compression check finds at toe ``level`` (m), by
+    the same steps (as-built pile, ground met, the pile's curve); None when not checked."""
+    pile = prepare(design, _record_at(asbuilt, ground, level), ground, rules, None)
+    try:
+        return axial_at_toe(pile)[1]
+    except (NotChecked, ValueError):
+        return None
+
+
+def required_toe(design: PileDesign, asbuilt: AsBuilt | None, ground: GroundModel,
+                 rules: Rules | None = None) -> RequiredToe:
+    """The highest toe level (m) at which the pile's axial_compression check is ok.
+
+    The demand is the check's: the design compression on the basis of the resistance
+    (``axial_demand``: design approach, ``loads_are``, ``load_factor``). The resistance is the
+    check's: as-built diameter and cut-off (design values when not recorded), the ground met
+    when strata were logged with the platform level (the base on the stratum met at the toe),
+    the design approach of the rules. A scan every ``REQUIRED_SCAN_STEP_M`` with every layer
+    boundary on both sides finds the first level reaching the demand; across a jump in base
+    resistance at a boundary the toe sits on the boundary; within a layer a bisection on the
+    check's own resistance narrows it to ``REQUIRED_TOL_M`` and keeps the deeper end. So a
+    recheck at ``level_m`` is ok, and a level ``REQUIRED_TOL_M`` higher is short unless it is on
+    the same step. The first level walking down: a weaker layer deeper down is for the check
+    at the pile's own toe. Units: m and kN.
+    """
+    rules = Rules() if rules is None else rules
+    asbuilt = AsBuilt() if asbuilt is None else asbuilt
+    record = replace(asbuilt, measured_depth=None)
+    pile = prepare(design, record, ground, rules, None)
+    demand = axial_demand(design.compression, rules)
+    if design.compression <= 0.0:
+        return RequiredToe(None, None, 0.0, "No compression load in the design: no toe is "
+                           "needed for resistance")
+    met = ground
+    if asbuilt.strata and asbuilt.platform_level is not None:
+        try:
+            met, _ = ground_from_strata(ground, asbuilt.platform_level, asbuilt.strata,
+                                        ground.bottom)
+        except ValueError as exc:
+            return RequiredToe(None, None, demand, f"The strata met could not be placed in the "
+                               f"ground model: {exc}")
+    levels = curve_levels(met, pile.cutoff, REQUIRED_SCAN_STEP_M, max_points=100_000)
+    if levels.size == 0:
+        return RequiredToe(None, None, demand, "The ground model leaves no room for the pile "
+                           "below its cut-off")
+    curve = capacity_curve(met, pile.diameter, pile.cutoff, levels, design.pile_type, rules)
+    where = "the ground met" if met is not ground else "the ground model"
+    basis_word = basis(rules)
+    found = required_toe_level(curve, demand)
+    if found is None:
+        return RequiredToe(None, None, demand, f"The design resistance does not reach the "
+                           f"{basis_word} load {demand:.0f} kN anywhere down to the bottom of "
+                           f"{where} ({met.bottom:.2f} m): extend the ground model or redesign")
+    z = curve.toe_levels
+    k = int(np.flatnonzero(z <= found + 1e-12)[0]) if np.any(z <= found + 1e-12) else z.size - 1
+    on_step = any(abs(found - s) <= LEVEL_TOL_M for s in curve.steps) and found in set(z.tolist())
+    if not on_step and k > 0:
+        # bisection between the scan points around it, on the check's own resistance
+        hi, lo = float(z[k - 1]), float(z[k])
+        while hi - lo > REQUIRED_TOL_M:
+            mid = 0.5 * (hi + lo)
+            r = _resistance_at(design, asbuilt, ground, rules, mid)
+            if r is not None and r >= demand:
+                lo = mid
+            else:
+                hi = mid
+        found = lo
+    # the check's resistance at the answer, and deeper in millimetres if rounding says short
+    level = float(found)
+    for _ in range(1000):
+        r = _resistance_at(design, asbuilt, ground, rules, level)
+        if r is not None and r >= demand:
+            break
+        level -= 0.001
+        if level < met.bottom:
+            return RequiredToe(None, None, demand, f"The design resistance does not reach the "
+                               f"{basis_word} load {demand:.0f} kN above the bottom of {where}")
+    toe = asbuilt.toe_level
+    more = None if toe is None else max(0.0, toe - level)
+    step = " (on the layer boundary, where the base resistance steps up)" if on_step else ""
+    reason = (f"Design resistance {r:.0f} kN reaches the {basis_word} load {demand:.0f} kN at "
+              f"toe {fmt_m(level)}{step} in {where}, D {pile.diameter * 1000:.0f} mm from "
+              f"cut-off {fmt_m(pile.cutoff)}")
+    if more is not None:
+        reason += (f"; {more:.2f} m below the as-built toe {fmt_m(toe)}" if more > 0
+                   else f"; the as-built toe {fmt_m(toe)} reaches it")
+    return RequiredToe(level, more, demand, reason)

@@ -91,7 +91,19 @@ def check_compression(pile: AsBuiltPile, axial) -> Check:
     return Check(code, demand, design, "kN", u, ok,
                  f"{basis(rules).capitalize()} load {demand:.0f} kN {verb} the design resistance "
                  f"{design:.0f} kN at the as-built toe {fmt_m(pile.toe)} (shaft {shaft:.0f} kN, "
-                 f"base {base:.0f} kN ultimate, D {pile.diameter * 1000:.0f} mm)")
+                 f"base {base:.0f} kN ultimate, D {pile.diameter * 1000:.0f} mm){base_words(pile)}")
+
+
+def base_words(pile: AsBuiltPile) -> str:
+    """Where the base resistance came from, when strata were logged: the stratum met at the
+    toe, or the ground model below the strata logged."""
+    if not pile.rebuilt or pile.toe is None:
+        return ""
+    s = pile.base_stratum
+    if s is not None:
+        return f"; base on the {s.material} met at the toe (logged {s.from_depth:g}-{s.to_depth:g} m)"
+    layer = pile.ground.layers[pile.ground.layer_index_at(pile.toe)]
+    return f"; base on the ground model's {layer.material} below the strata logged"
 
 
 def check_tension(pile: AsBuiltPile, axial) -> Check:
