@@ -247,6 +247,24 @@ def _check_common(ground: Any, diameter: Any, top_level: Any, pile_type: Any,
     return diameter, top_level, rules
 
 
+GAUSS_POINTS_RANGE = (1, 8)    # Gauss-Legendre orders whose antiderivative matrix is exact to rounding
+MAX_STEP_RANGE_M = (1e-3, 100.0)
+
+
+def _check_integration(max_step: Any, gauss_points: Any) -> tuple[float, int]:
+    """The integration controls, refused outside their ranges (ValueError naming the field)."""
+    lo, hi = MAX_STEP_RANGE_M
+    if isinstance(max_step, bool) or not isinstance(max_step, (int, float, np.integer, np.floating)) \
+            or not math.isfinite(float(max_step)) or not lo <= float(max_step) <= hi:
+        raise ValueError(f"max_step must be a number from {lo:g} to {hi:g} m, got {max_step!r}")
+    g_lo, g_hi = GAUSS_POINTS_RANGE
+    if isinstance(gauss_points, bool) or not isinstance(gauss_points, (int, np.integer)) \
+            or not g_lo <= int(gauss_points) <= g_hi:
+        raise ValueError(f"gauss_points must be a whole number from {g_lo} to {g_hi}, got "
+                         f"{gauss_points!r}")
+    return float(max_step), int(gauss_points)
+
+
 def _check_toes(ground: GroundModel, top_level: float, toes: np.ndarray, name: str) -> None:
     """Every toe level finite, below ``top_level`` and within the ground model."""
     if np.any(~np.isfinite(toes)):
@@ -328,6 +346,7 @@ def axial_capacity(ground: GroundModel, diameter: float, top_level: float, toe_l
     NaN or inf).
     """
     diameter, top_level, rules = _check_common(ground, diameter, top_level, pile_type, rules)
+    max_step, gauss_points = _check_integration(max_step, gauss_points)
     toe_level = number("toe_level", toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
     _check_toes(ground, top_level, np.array([toe_level]), "toe_level")
     toe_level = max(toe_level, ground.bottom)
@@ -447,6 +466,7 @@ def capacity_curve(ground: GroundModel, diameter: float, top_level: float, toe_l
     of finite levels below ``top_level`` and within the ground model, in any order.
     """
     diameter, top_level, rules = _check_common(ground, diameter, top_level, pile_type, rules)
+    max_step, gauss_points = _check_integration(max_step, gauss_points)
     try:
         toes = np.array(toe_levels, dtype=float)
     except (TypeError, ValueError) as exc:

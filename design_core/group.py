@@ -44,6 +44,8 @@ def group_shares(xy, n: float, mx: float = 0.0, my: float = 0.0,
         if not math.isfinite(float(value)):
             raise ValueError(f"{name} must be a finite number, got {value!r}")
     lx, ly = (float(v) for v in load_point)
+    if not (math.isfinite(lx) and math.isfinite(ly)):
+        raise ValueError(f"load_point must be finite (easting, northing) in m, got {load_point!r}")
     k = pts.shape[0]
     centre = pts.mean(axis=0)
     dx = pts[:, 0] - centre[0]

@@ -95,6 +95,8 @@ def _validate(diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa) -> Non
             raise ValueError(f"{name} must be a number, got {value!r}")
         if not math.isfinite(value) or value < lo or value > hi:
             raise ValueError(f"{name} must be between {lo:g} and {hi:g}, got {value!r}")
+    if float(n_bars) != int(n_bars):
+        raise ValueError(f"n_bars must be a whole number of bars (0 to 500), got {n_bars!r}")
     if n_bars and (cover_mm + bar_mm) * 2 >= diameter * 1000.0:
         raise ValueError(f"cover_mm + bar_mm ({cover_mm + bar_mm:g} mm) leaves no core in a "
                          f"{diameter * 1000:g} mm pile")

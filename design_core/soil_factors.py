@@ -13,6 +13,17 @@ import numpy as np
 
 from design_core.rules import Rules
 
+PHI_RANGE_DEG = (10.0, 50.0)   # the range of phi' the formulas are used in (as Layer accepts)
+
+
+def _phi(phi) -> np.ndarray:
+    """phi' (degrees) as an array, refused outside ``PHI_RANGE_DEG`` or not finite."""
+    phi = np.asarray(phi, dtype=float)
+    lo, hi = PHI_RANGE_DEG
+    if np.any(~np.isfinite(phi)) or np.any(phi < lo) or np.any(phi > hi):
+        raise ValueError(f"phi must be between {lo:g} and {hi:g} degrees, got {phi.tolist()!r}")
+    return phi
+
 def alpha_api(psi: float | np.ndarray, alpha_max: float = 1.0) -> float | np.ndarray:
     """Adhesion factor alpha of the API rule for psi = c_u / sigma'_v (dimensionless).
 
@@ -72,7 +83,7 @@ def earth_pressure_k(phi: float | np.ndarray, rules: Rules | None = None) -> flo
     phi' in degrees (10-50).
     """
     rules = rules or Rules()
-    phi = np.asarray(phi, dtype=float)
+    phi = _phi(phi)
     k = 1.0 - np.sin(np.radians(phi)) if rules.k_rule == "jaky" else np.full_like(phi, rules.k_fixed)
     return float(k) if k.ndim == 0 else k
 
@@ -83,7 +94,7 @@ def beta_factor(phi: float | np.ndarray, rules: Rules | None = None) -> float | 
     f_s = beta sigma'_v (beta method; K by ``earth_pressure_k``). REFERENCES.md section 3.
     """
     rules = rules or Rules()
-    phi = np.asarray(phi, dtype=float)
+    phi = _phi(phi)
     beta = np.asarray(earth_pressure_k(phi, rules)) * np.tan(np.radians(rules.delta_over_phi * phi))
     return float(beta) if beta.ndim == 0 else beta
 
@@ -96,7 +107,7 @@ def n_q(phi: float | np.ndarray, rules: Rules | None = None) -> float | np.ndarr
     ``nq_fixed``.
     """
     rules = rules or Rules()
-    phi = np.asarray(phi, dtype=float)
+    phi = _phi(phi)
     if rules.nq_rule == "fixed":
         out = np.full_like(phi, rules.nq_fixed)
     else:
