@@ -6,7 +6,7 @@ grade, base debris, volume, time). ``design_core.verdict`` runs them in ``CHECK_
 """
 
 from design_core.checks.results import (
-    CHECK_CODES, CHECK_LABELS, MEETS_DESIGN, NEEDS_ENGINEER, Check, PileVerdict,
+    CAPACITY_CODES, CHECK_CODES, CHECK_LABELS, MEETS_DESIGN, NEEDS_ENGINEER, Check, PileVerdict,
 )
 
-__all__ = ["CHECK_CODES", "CHECK_LABELS", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict"]
+__all__ = ["CAPACITY_CODES", "CHECK_CODES", "CHECK_LABELS", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict"]

@@ -14,6 +14,16 @@ from design_core.asbuilt import AsBuiltPile, fmt_m, unrecorded
 from design_core.checks.common import signed, util
 from design_core.checks.results import Check
 
+def allowance_used(deficit: float, allowance: float) -> float:
+    """Utilisation of an ok "at least as designed" tolerance (toe, diameter, cage): the share
+    of the allowance used, ``deficit`` over ``allowance`` (same unit); 0 when the pile is at
+    or beyond its design value, so a tolerance met exactly is 0, never 1. A short check keeps
+    design over as-built (above 1)."""
+    if deficit <= 0.0:
+        return 0.0
+    return min(1.0, deficit / allowance) if allowance > 0.0 else 1.0
+
+
 def check_position(pile: AsBuiltPile) -> Check:
     code, rules = "position", pile.rules
     if pile.dev_mm is None:
@@ -65,10 +75,14 @@ def check_toe(pile: AsBuiltPile) -> Check:
     above = pile.toe - design
     limit = rules.toe_tolerance_mm / 1000.0
     ok = above <= limit + 1e-9
-    # utilisation: length needed below the design cut-off over the length reached
+    # short: length needed below the design cut-off over the length reached (> 1); ok: the
+    # share of the allowance used (0 at or below the design toe; see allowance_used)
     need = pile.design.cutoff_level - (design + limit)
     reached = pile.design.cutoff_level - pile.toe
-    util = need / reached if reached > 0 else math.inf
+    if ok:
+        util = allowance_used(max(0.0, above), limit)
+    else:
+        util = need / reached if reached > 0 else math.inf
     if abs(above) < 0.005:
         where = f"As-built toe {fmt_m(pile.toe)} at the design toe {fmt_m(design)}"
     else:
@@ -89,7 +103,8 @@ def check_diameter(pile: AsBuiltPile) -> Check:
     ok = got >= least - 1e-6
     verb = "not below" if ok else "below"
     allow = f" less {rules.diameter_tolerance_mm:g} mm" if rules.diameter_tolerance_mm else ""
-    return Check(code, got, least, "mm", util(least, got), ok,
+    u = allowance_used(max(0.0, design - got), rules.diameter_tolerance_mm) if ok else util(least, got)
+    return Check(code, got, least, "mm", u, ok,
                  f"As-built diameter {got:.0f} mm {verb} the design {design:.0f} mm{allow}")
 
 
@@ -106,6 +121,7 @@ def check_cage(pile: AsBuiltPile) -> Check:
         return Check.not_checked(code, "m", "Cage length not recorded (cage_length)")
     least = d.cage_length - rules.cage_tolerance_m
     ok = got >= least - 1e-9
+    u = allowance_used(max(0.0, d.cage_length - got), rules.cage_tolerance_m) if ok else util(least, got)
     allow = f" less {rules.cage_tolerance_m:g} m" if rules.cage_tolerance_m else ""
     if ok:
         text = f"Cage {got:.2f} m long, not shorter than the design {d.cage_length:.2f} m{allow}"
@@ -113,4 +129,4 @@ def check_cage(pile: AsBuiltPile) -> Check:
         text = (f"Cage {got:.2f} m long, {d.cage_length - got:.2f} m shorter than the design "
                 f"{d.cage_length:.2f} m{allow}: the pile is unreinforced below "
                 f"{fmt_m(pile.cutoff - got)}, where the design put bars")
-    return Check(code, got, least, "m", util(least, got), ok, text)
+    return Check(code, got, least, "m", u, ok, text)
