@@ -70,7 +70,7 @@ __all__ = [
     "GAUSS_POINTS", "MAX_STEP_M", "SHAFT_METHODS", "DIAMETER_MAX_M", "alpha_api", "alpha_factor",
     "beta_factor", "earth_pressure_k", "n_q", "shaft_profile", "clear_shared_profiles",
     "pile_area", "ShaftRow", "AxialResult", "TensionResult", "CapacityCurve", "axial_capacity",
-    "unit_shaft_friction", "pile_weight", "tension_design", "tension_capacity", "capacity_curve",
+    "unit_shaft_friction", "pile_weight", "tension_design", "design_words", "tension_words", "tension_capacity", "capacity_curve",
     "curve_levels", "layer_steps", "pile_capacity_curve", "prime_capacity_points", "required_toe_level",
 ]
 
@@ -419,6 +419,33 @@ def tension_design(shaft: float, weight: float, rules: Rules) -> float:
     if rules.design_approach == "limit_state":
         return rules.phi_g * shaft_t + rules.pile_weight_factor * weight
     return shaft_t / rules.fs_tension + rules.pile_weight_factor * weight
+
+
+def _kn(x: float) -> str:
+    """A force for a reason: whole kN with thousands separated (1,587 kN)."""
+    return f"{x:,.0f} kN"
+
+
+def design_words(shaft: float, base: float, rules: Rules) -> str:
+    """How the design compression resistance was found from Q_s and Q_b (kN), with the
+    factors, so a reader can rebuild it: "min(Q_u 1,234 kN / 2.5, shaft 1,000 kN / 1.5 +
+    base 234 kN / 3)" or "0.55 x (shaft 1,000 kN + base 234 kN)"."""
+    if rules.design_approach == "limit_state":
+        return f"phi_g {rules.phi_g:g} x (shaft {_kn(shaft)} + base {_kn(base)})"
+    return (f"min(Q_u {_kn(shaft + base)} / {rules.fs_global:g}, shaft {_kn(shaft)} / "
+            f"{rules.fs_shaft:g} + base {_kn(base)} / {rules.fs_base:g})")
+
+
+def tension_words(shaft: float, weight: float, rules: Rules) -> str:
+    """How ``tension_design`` was found, with its factors: "0.75 x shaft 1,587 kN / FS 3 +
+    0.9 x pile weight 86 kN" (working stress) or "phi_g 0.55 x 0.75 x shaft 1,587 kN + 0.9 x
+    pile weight 86 kN" (limit state)."""
+    eta, w = rules.tension_fraction, rules.pile_weight_factor
+    if rules.design_approach == "limit_state":
+        part = f"phi_g {rules.phi_g:g} x {eta:g} x shaft {_kn(shaft)}"
+    else:
+        part = f"{eta:g} x shaft {_kn(shaft)} / FS {rules.fs_tension:g}"
+    return f"{part} + {w:g} x pile weight {_kn(weight)}"
 
 
 def tension_capacity(ground: GroundModel, diameter: float, top_level: float, toe_level: float,

@@ -33,3 +33,24 @@ def test_every_check_has_words_for_screens_and_the_record():
     assert set(CHECK_LABELS) == set(CHECK_CODES)
     assert CHECK_LABELS["base_debris"] == "Base debris"
     assert CHECK_LABELS["durability_cover"] == "Cover for exposure class"
+
+
+def test_reasons_carry_the_factors_they_used():
+    # Rules defaults (working stress): T_d = 0.75 Q_s / 3 + 0.9 W'; R_d = min(Q_u / 2.5,
+    # Q_s / 1.5 + Q_b / 3). The reason's own numbers rebuild the value to its rounding.
+    import re
+
+    v = recheck(DESIGN, ASBUILT, GROUND)
+    t = v.check("axial_tension")
+    shaft, weight = (float(x.replace(",", "")) for x in
+                     re.search(r"0\.75 x shaft ([\d,]+) kN / FS 3 \+ 0\.9 x pile weight ([\d,]+) kN",
+                               t.reason).groups())
+    assert t.limit == pytest.approx(0.75 * shaft / 3.0 + 0.9 * weight, abs=1.0)
+    c = v.check("axial_compression")
+    qu, qs, qb = (float(x.replace(",", "")) for x in re.search(
+        r"min\(Q_u ([\d,]+) kN / 2\.5, shaft ([\d,]+) kN / 1\.5 \+ base ([\d,]+) kN / 3\)",
+        c.reason).groups())
+    assert c.limit == pytest.approx(min(qu / 2.5, qs / 1.5 + qb / 3.0), abs=1.0)
+    ls = recheck(DESIGN, ASBUILT, GROUND, Rules(design_approach="limit_state"))
+    assert "phi_g 0.55 x 0.75 x shaft" in ls.check("axial_tension").reason
+    assert "phi_g 0.55 x (shaft" in ls.check("axial_compression").reason

@@ -16,7 +16,9 @@ from __future__ import annotations
 import numpy as np
 
 from design_core.asbuilt import AsBuiltPile, fmt_m, toe_problem
-from design_core.axial import CapacityCurve, pile_capacity_curve, pile_weight, tension_design
+from design_core.axial import (
+    CapacityCurve, design_words, pile_capacity_curve, pile_weight, tension_design, tension_words,
+)
 from design_core.checks.common import NotChecked, util
 from design_core.checks.results import Check
 from design_core.group import across_moment, group_shares
@@ -90,8 +92,9 @@ def check_compression(pile: AsBuiltPile, axial) -> Check:
     verb = "within" if ok else "exceeds"
     return Check(code, demand, design, "kN", u, ok,
                  f"{basis(rules).capitalize()} load {demand:.0f} kN {verb} the design resistance "
-                 f"{design:.0f} kN at the as-built toe {fmt_m(pile.toe)} (shaft {shaft:.0f} kN, "
-                 f"base {base:.0f} kN ultimate, D {pile.diameter * 1000:.0f} mm){base_words(pile)}")
+                 f"{design:.0f} kN = {design_words(shaft, base, rules)} at the as-built toe "
+                 f"{fmt_m(pile.toe)} (shaft and base ultimate, D {pile.diameter * 1000:.0f} mm)"
+                 f"{base_words(pile)}")
 
 
 def base_words(pile: AsBuiltPile) -> str:
@@ -122,8 +125,8 @@ def check_tension(pile: AsBuiltPile, axial) -> Check:
     verb = "within" if ok else "exceeds"
     return Check(code, demand, design, "kN", u, ok,
                  f"{basis(rules).capitalize()} uplift {demand:.0f} kN {verb} the design uplift "
-                 f"resistance {design:.0f} kN ({rules.tension_fraction:g} x shaft {shaft:.0f} kN "
-                 f"and pile weight {weight:.0f} kN) at the as-built toe {fmt_m(pile.toe)}")
+                 f"resistance {design:.0f} kN = {tension_words(shaft, weight, rules)} at the "
+                 f"as-built toe {fmt_m(pile.toe)}")
 
 
 def cap_positions(pile: AsBuiltPile, group: CapGroup) -> tuple:
@@ -187,13 +190,15 @@ def check_group(pile: AsBuiltPile, group: CapGroup | None, axial,
     if share >= 0.0:
         resistance = axial[1]
         what = "design compression resistance"
+        how = design_words(axial[2], axial[3], rules)
     else:
-        resistance, _ = tension_resistance(pile, axial[2])
+        resistance, weight = tension_resistance(pile, axial[2])
         what = "design uplift resistance"
+        how = tension_words(axial[2], weight, rules)
     u = util(demand, resistance)
     ok = u <= 1.0
     verb = "within" if ok else "exceeds"
     pull = "" if share >= 0.0 else " (uplift)"
     return Check(code, demand, resistance, "kN", u, ok,
                  f"Share on the as-built positions {demand:.0f} kN{pull} {verb} the {what} "
-                 f"{resistance:.0f} kN ({where})"), share
+                 f"{resistance:.0f} kN = {how} ({where})"), share
