@@ -22,7 +22,9 @@ from design_core.lateral import (
 from design_core.memo import MEMO
 
 LATERAL_STEP_M = 0.05      # lateral geometry rounded to this, on the safe side
-WINKLER_NODES = 100        # about 0.4 % from Hetenyi on a 30 m pile (tests/validation)
+WINKLER_NODES = 50         # the first mesh; halved until the head deflection settles
+WINKLER_MAX_NODES = 1600
+WINKLER_SETTLED = 0.005    # the head deflection changes by less than 0.5 % on halving the mesh
 
 
 class NoLateralSoil(ValueError):
@@ -106,7 +108,7 @@ def winkler_inputs(pile, geometry) -> tuple:
 
 
 def winkler_case(springs: tuple, free: float, embedded: float, diameter: float,
-                 fc_mpa: float, ei_factor: float, head: str) -> tuple:
+                 fc_mpa: float, ei_factor: float, head: str, nodes: int = WINKLER_NODES) -> tuple:
     """(ei, length, spring, head, nodes) for ``winkler_unit_responses`` from the inputs of
     ``winkler_inputs``: ``springs`` the segments of ``spring_segments`` (none outside them; at
     a boundary the segment below), EI = factor x E_c I_g (kNm2), E_c = 4700 sqrt(f'_c) MPa
@@ -128,7 +130,7 @@ def winkler_case(springs: tuple, free: float, embedded: float, diameter: float,
 
     ec = 4700.0 * math.sqrt(fc_mpa) * 1000.0          # kPa
     ei = ei_factor * ec * math.pi * diameter ** 4 / 64.0
-    return ei, free + embedded, spring, head, WINKLER_NODES
+    return ei, free + embedded, spring, head, nodes
 
 
 def _frozen(depth, unit, ei):
@@ -137,28 +139,67 @@ def _frozen(depth, unit, ei):
     return depth, unit, ei
 
 
+def _settled(coarse, fine) -> bool:
+    """True when the head deflections per unit H and per unit M (m) of two meshes differ by
+    less than ``WINKLER_SETTLED`` of the finer one's."""
+    a, b = coarse[1][0], fine[1][0]
+    for j in range(b.size):
+        if abs(b[j]) > 0.0 and abs(a[j] - b[j]) > WINKLER_SETTLED * abs(b[j]):
+            return False
+    return True
+
+
 def winkler_solve(key: tuple):
     """(depth m, head deflections per unit H and M in m, EI kNm2) of the system ``key``
-    (``winkler_inputs``), kept in ``MEMO.winkler``; the arrays are read-only."""
-    def make():
-        case = winkler_case(*key)
+    (``winkler_inputs``), kept in ``MEMO.winkler``; the arrays are read-only.
+
+    The mesh starts at ``WINKLER_NODES`` intervals and is halved until the head deflection
+    changes by less than ``WINKLER_SETTLED`` (0.5 %), up to ``WINKLER_MAX_NODES``; the finer
+    mesh's result is kept (finite differences converge as h^2, so it is the nearer).
+    """
+    def solve(nodes):
+        case = winkler_case(*key, nodes=nodes)
         depth, unit = winkler_unit_responses(*case)
-        return _frozen(depth, unit, case[0])
+        return depth, unit, case[0]
+
+    def make():
+        nodes = WINKLER_NODES
+        prev = solve(nodes)
+        while True:
+            nodes *= 2
+            cur = solve(nodes)
+            if nodes >= WINKLER_MAX_NODES or _settled(prev, cur):
+                return _frozen(*cur)
+            prev = cur
     return MEMO.winkler.get(key, make)
 
 
 def solve_together(keys) -> None:
     """Solve the distinct systems ``keys`` not yet kept, together
-    (``winkler_unit_responses_many``), into ``MEMO.winkler``: the same numbers as one by one.
-    Fewer than ``SOLVE_TOGETHER_MIN`` are left to ``winkler_solve``; a batch the solver refuses
-    is left for each check to solve and report."""
-    wanted = [k for k in dict.fromkeys(keys) if MEMO.winkler.find(k) is None]
-    if len(wanted) < SOLVE_TOGETHER_MIN:
+    (``winkler_unit_responses_many``), into ``MEMO.winkler``, refining each mesh as
+    ``winkler_solve`` does: the same numbers as one by one. Fewer than ``SOLVE_TOGETHER_MIN``
+    are left to ``winkler_solve``; a batch the solver refuses is left for each check to solve
+    and report."""
+    pending = [k for k in dict.fromkeys(keys) if MEMO.winkler.find(k) is None]
+    if len(pending) < SOLVE_TOGETHER_MIN:
         return
-    try:
-        cases = [winkler_case(*key) for key in wanted]
+
+    def batch(which, nodes):
+        cases = [winkler_case(*key, nodes=nodes) for key in which]
         solved = winkler_unit_responses_many(cases)
+        return {key: (depth, unit, case[0])
+                for key, case, (depth, unit) in zip(which, cases, solved, strict=True)}
+
+    try:
+        nodes = WINKLER_NODES
+        prev = batch(pending, nodes)
+        while pending:
+            nodes *= 2
+            cur = batch(pending, nodes)
+            done = [k for k in pending if nodes >= WINKLER_MAX_NODES or _settled(prev[k], cur[k])]
+            for k in done:
+                MEMO.winkler.put(k, _frozen(*cur[k]))
+            pending = [k for k in pending if k not in set(done)]
+            prev = cur
     except ValueError:
         return
-    for key, case, (depth, unit) in zip(wanted, cases, solved, strict=True):
-        MEMO.winkler.put(key, _frozen(depth, unit, case[0]))

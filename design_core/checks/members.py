@@ -28,17 +28,19 @@ from design_core.lateral_springs import (
 )
 from design_core.loads import to_factored, to_working
 from design_core.memo import MEMO
-from design_core.section import InteractionCurve, section_interaction
+from design_core.section import InteractionCurve, section_interaction_least
 
 
 def section_of(pile: AsBuiltPile) -> InteractionCurve:
-    """``section_interaction`` of the as-built section (diameter, cover, f'_c as built; bars
-    as designed), kept in ``MEMO.sections``; its arrays are read-only as it is shared."""
+    """The interaction curve of the as-built section (diameter, cover, f'_c as built; bars as
+    designed) with the bars in their least favourable orientation
+    (``section_interaction_least``), kept in ``MEMO.sections``; its arrays are read-only as it
+    is shared."""
     d = pile.design
 
     def make():
-        curve = section_interaction(pile.diameter, pile.cover_mm, d.n_bars, d.bar_mm,
-                                    pile.fc_mpa, d.fy_mpa)
+        curve = section_interaction_least(pile.diameter, pile.cover_mm, d.n_bars, d.bar_mm,
+                                          pile.fc_mpa, d.fy_mpa)
         for arr in (curve.n, curve.m, curve.c):
             arr.setflags(write=False)
         return curve
@@ -65,10 +67,26 @@ def check_structural(pile: AsBuiltPile, share: float | None, group: CapGroup | N
     n_f = to_factored(compression, rules)
     e_min = rules.min_eccentricity_m(pile.diameter)
     m_design = to_factored(d.moment, rules)
-    m_f = max(m_design, n_f * e_min)
+    head = None
+    unknown_head = ""
+    if d.head == "fixed" and d.shear > 0.0:
+        head = _fixed_head_moment(pile)
+        if isinstance(head, str):   # the lateral check is not made either: needs the engineer
+            head, unknown_head = None, f"; {head}: the design moment is used"
+    m_f = max(m_design, n_f * e_min, head or 0.0)
     dev_m = (pile.dev_mm or 0.0) / 1000.0 if standalone else 0.0
     m_f += n_f * dev_m
     phi = rules.structural_phi
+    n_max = phi * rules.axial_cap_factor * section.squash      # phi P_n,max (ACI 318-19 22.4.2.1)
+    details["interaction"] = section
+    details["structural_phi"] = phi
+    details["axial_cap_kn"] = n_max
+    if n_f > n_max:
+        details["load_point"] = (n_f, m_f)
+        return Check(code, n_f, n_max, "kN", n_f / n_max, False,
+                     f"Factored N {n_f:.0f} kN exceeds phi P_n,max {n_max:.0f} kN = phi {phi:g} x "
+                     f"{rules.axial_cap_factor:g} x P_0 {section.squash:.0f} kN (tied section, "
+                     f"D {pile.diameter * 1000:.0f} mm)")
     cap = phi * section.moment_capacity(n_f / phi)
     u = util(m_f, cap) if n_f / phi <= section.squash else math.inf
     cases = [(u, n_f, m_f, cap)]
@@ -80,12 +98,12 @@ def check_structural(pile: AsBuiltPile, share: float | None, group: CapGroup | N
             util_t = math.inf
         cases.append((util_t, -t_f, m_design, cap_t))
     u, n_f, m_f, cap = max(cases, key=lambda c: c[0])
-    details["interaction"] = section
     details["load_point"] = (n_f, m_f)
-    details["structural_phi"] = phi
     ok = u <= 1.0
     if n_f >= 0:
-        how = f"max(design, N x e_min {e_min * 1000:.0f} mm)"
+        spring = (f", head moment {head:.0f} kNm from the springs under the shear"
+                  if head is not None else "")
+        how = f"max(design{spring}, N x e_min {e_min * 1000:.0f} mm)"
         if dev_m > 0:
             how += f" + N x plan deviation {dev_m * 1000:.0f} mm"
     else:
@@ -95,7 +113,26 @@ def check_structural(pile: AsBuiltPile, share: float | None, group: CapGroup | N
              else f"design cover {pile.cover_mm:.0f} mm, as-built not recorded")
     return Check(code, m_f, cap, "kNm", u, ok,
                  f"Factored M {m_f:.0f} kNm ({how}) at N {n_f:.0f} kN {verb} phi Mn {cap:.0f} kNm "
-                 f"(phi {phi:g}, D {pile.diameter * 1000:.0f} mm, {cover})")
+                 f"(phi {phi:g}, D {pile.diameter * 1000:.0f} mm, {cover}){unknown_head}")
+
+
+def _fixed_head_moment(pile: AsBuiltPile) -> float | str:
+    """The factored head moment (kNm) of a fixed-head pile under its design shear, from the
+    Winkler solution of the lateral check (moment E I y'' at the head under the working shear,
+    times the load factor); or why it cannot be worked out (no toe, no soil for springs: the
+    lateral check is then not made either, so the pile needs the engineer, and the structural
+    reason says the design moment was used)."""
+    rules = pile.rules
+    problem = toe_problem(pile)
+    if problem:
+        return f"The fixed-head moment under the shear needs the toe: {problem}"
+    try:
+        _, key = lateral_key(pile)
+        depth, unit, ei = winkler_solve(key)
+    except ValueError as exc:
+        return f"The fixed-head moment under the shear could not be worked out: {exc}"
+    per_kn = abs(float(winkler_result(depth, unit[:, 0], ei, "fixed", 1.0, 0.0).moment[0]))
+    return to_factored(per_kn * to_working(pile.design.shear, rules), rules)
 
 
 def lateral_key(pile: AsBuiltPile) -> tuple:
