@@ -4,7 +4,7 @@ Levels are reduced levels in metres, higher is up. Unit weights in kN/m3, streng
 pressures in kPa, angles in degrees.
 
 Vertical effective stress (Terzaghi's principle of effective stress, Terzaghi 1943,
-*Theoretical Soil Mechanics*; REFERENCES.md section 1) is measured from the top of the ground
+*Theoretical Soil Mechanics*) is measured from the top of the ground
 model::
 
     sigma'_v(z) = sum over the soil above z of gamma_i * h_i  -  gamma_w * max(0, z_w - z)
@@ -14,7 +14,7 @@ weight (gamma - gamma_w) below it. Between layer boundaries and the water level 
 in level, so it is held exactly as a piecewise-linear profile.
 
 Also here: ``ground_from_strata``, which rebuilds the ground under one pile from the strata the
-inspector logged at the rig (PRODUCT.md section 5).
+inspector logged at the rig.
 """
 
 from __future__ import annotations
@@ -234,7 +234,7 @@ class GroundModel:
         """Vertical effective stress sigma'_v (kPa) at ``level`` (m).
 
         sigma'_v = sum(gamma_i h_i) - gamma_w (z_w - z) below the water level z_w (Terzaghi;
-        REFERENCES.md section 1). Exact (linear interpolation of a piecewise-linear profile).
+        Terzaghi 1943). Exact (linear interpolation of a piecewise-linear profile).
         Above the ground surface it is 0; below the model it is extrapolated with the last
         layer's weight.
         """
@@ -307,7 +307,7 @@ def _borrow(layer: Layer, top: float, bottom: float) -> Layer:
 
 def ground_from_strata(ground: GroundModel, platform_level: float, strata: Sequence[StratumMet],
                        toe_level: float) -> tuple[GroundModel, list[Borrowed]]:
-    """The ground under one pile, rebuilt from the strata logged at the rig (PRODUCT.md s. 5).
+    """The ground under one pile, rebuilt from the strata logged at the rig.
 
     Each stratum met (depths in m below ``platform_level``, m) replaces the ground model over
     its levels, down to ``toe_level`` (m). It takes its unit weight and strength parameters

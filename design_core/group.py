@@ -9,7 +9,7 @@ sum P_i y_i = M_x + N y_load) gives, about the centroid of the piles as placed
 
 with I_xx = sum x'^2, I_yy = sum y'^2, I_xy = sum x'y', M_x' = M_x + N (y_load - y_c) and
 M_y' = M_y + N (x_load - x_c). The product term I_xy is kept because as-built groups are not
-symmetric. Source: REFERENCES.md section 11 (the general form; for a symmetric group it reduces
+symmetric. Source: the rigid-cap equations (the general form; for a symmetric group it reduces
 to N/n + M_x y/sum y^2 + M_y x/sum x^2, Bowles, Foundation Analysis and Design, pile caps).
 Sign: M_x adds compression towards +y, M_y towards +x; compression positive.
 """

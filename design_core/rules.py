@@ -1,4 +1,4 @@
-"""The project's check rules: every default factor, limit and table of PRODUCT.md section 6.
+"""The project's check rules: every default factor, limit and table of the recheck.
 
 Mechanics (the formulas) live in the other modules of ``design_core``; every number an engineer
 might change lives here, as data, with the unit and the source written beside it. A project stores
@@ -88,7 +88,7 @@ class RuleDoc:
 
 @dataclass(frozen=True)
 class Rules:
-    """Every default of the recheck, each with its unit and source (PRODUCT.md section 6).
+    """Every default of the recheck, each with its unit and source.
 
     Construct with keyword arguments to change any default; values out of range raise
     ``ValueError`` naming the field, the value and the allowed range.

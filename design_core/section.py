@@ -14,7 +14,8 @@ P_0 = 0.85 f'_c (A_g - A_st) + f_y A_st (ACI 318-19 22.4.2.2) with no 0.80/0.85 
 (Table 22.4.2.1): values are nominal and unfactored; the rules apply phi.
 
 Bars are equally spaced on a circle of radius D/2 - cover - bar/2, one bar at the extreme
-compression fibre (REFERENCES.md section 8 uses the same layout).
+compression fibre (the usual layout of worked examples; ``section_interaction_least`` turns
+the ring to its least favourable orientation).
 
 Units: diameter m, cover_mm and bar_mm mm, fc_mpa, fy_mpa, es_mpa MPa; results kN and kNm,
 compression positive.

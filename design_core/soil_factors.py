@@ -43,7 +43,7 @@ def alpha_factor(cu: float | np.ndarray, sigma_v_eff: float | np.ndarray,
     """Adhesion factor alpha for c_u (kPa) and sigma'_v (kPa) by the rules' ``alpha_rule``.
 
     "api": see ``alpha_api``. "power": alpha = C (sigma'_v / c_u)^n with C = ``alpha_c`` and
-    n = ``alpha_n`` (an engineer's rule, not a named published method; REFERENCES.md 2b).
+    n = ``alpha_n`` (an engineer's rule, not a named published method).
     Both capped at ``alpha_max``. Valid for c_u > 0 and sigma'_v > 0 (kPa).
     """
     rules = rules or Rules()
@@ -91,7 +91,7 @@ def earth_pressure_k(phi: float | np.ndarray, rules: Rules | None = None) -> flo
 def beta_factor(phi: float | np.ndarray, rules: Rules | None = None) -> float | np.ndarray:
     """Shaft factor beta = K tan(delta), delta = ``delta_over_phi`` x phi' (phi' in degrees).
 
-    f_s = beta sigma'_v (beta method; K by ``earth_pressure_k``). REFERENCES.md section 3.
+    f_s = beta sigma'_v (beta method; K by ``earth_pressure_k``; Burland 1973, the beta method).
     """
     rules = rules or Rules()
     phi = _phi(phi)

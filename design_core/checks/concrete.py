@@ -50,7 +50,7 @@ def check_debris(pile: AsBuiltPile) -> Check:
     code, rules = "base_debris", pile.rules
     debris = pile.asbuilt.debris_mm
     if pile.design.pile_type != "bored" and debris is None:
-        # CFA, driven and screw piles have no open base to inspect (PRODUCT.md section 4): for a
+        # CFA, driven and screw piles have no open base to inspect (their record has no base inspection): for a
         # CFA pile the concrete volume against depth takes its place (concrete_volume).
         return Check(code, None, rules.base_debris_mm, "mm", 0.0, True,
                      f"A {pile.design.pile_type} pile has no open base to inspect; nothing to check")
