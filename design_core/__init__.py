@@ -25,7 +25,9 @@ from design_core.memo import MEMO
 # Temporary, removed at merge: load the old module name first, so that the function bound below
 # (not the shim module design_core/recheck.py) is what ``design_core.recheck`` names.
 import design_core.recheck  # noqa: E402,F401
-from design_core.verdict import ProjectItem, recheck, recheck_project  # noqa: E402
+from design_core.verdict import (  # noqa: E402
+    ProjectItem, RequiredToe, recheck, recheck_project, required_toe,
+)
 
 __all__ = [
     "CHECK_CODES", "CHECK_LABELS", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict",
@@ -39,5 +41,5 @@ __all__ = [
     "BromsResult", "WinklerResult", "broms_lateral", "solve_pentadiagonal", "winkler_pile",
     "winkler_result", "winkler_unit_responses",
     "across_moment", "group_shares",
-    "MEMO", "ProjectItem", "recheck", "recheck_project",
+    "MEMO", "ProjectItem", "RequiredToe", "recheck", "recheck_project", "required_toe",
 ]
