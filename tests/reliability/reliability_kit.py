@@ -145,3 +145,43 @@ def engineer_site(data: Path) -> dict:
     with app.app_context():
         project_id = db.get_db().execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
     return {"app": app, "client": client, "token": token, "data": data, "project": project_id}
+
+
+class _TupleRows:
+    """A PostgreSQL connection (fieldapp.db) giving plain tuples, as sqlite3.connect does."""
+
+    def __init__(self, conn):
+        self.conn = conn
+
+    def execute(self, sql: str, params=()):
+        return self.conn.execute(sql, params, None)
+
+    def close(self) -> None:
+        self.conn.close()
+
+
+def open_database(data: Path):
+    """The test's database as a plain DB-API connection with tuple rows: the SQLite file in the
+    data folder, or the PostgreSQL database ``TOELINE_DATABASE_URL`` names (the PostgreSQL run)."""
+    url = os.environ.get("TOELINE_DATABASE_URL")
+    if url:
+        from fieldapp import db
+
+        return _TupleRows(db.connect(url))
+    import sqlite3
+
+    return sqlite3.connect(str(data / "toeline.sqlite3"))
+
+
+def integrity_ok(conn) -> bool:
+    """SQLite: ``PRAGMA integrity_check`` is ok. PostgreSQL: amcheck finds every B-tree index of
+    the schema consistent with itself (``bt_index_check`` raises on a corrupt one)."""
+    if isinstance(conn, _TupleRows):
+        conn.execute("CREATE EXTENSION IF NOT EXISTS amcheck")
+        checked = conn.execute(
+            "SELECT COUNT(bt_index_check(c.oid)) FROM pg_index i JOIN pg_class c ON c.oid = i.indexrelid "
+            "JOIN pg_am a ON a.oid = c.relam WHERE a.amname = 'btree' "
+            "AND c.relnamespace = 'public'::regnamespace").fetchone()[0]
+        return checked > 0
+    return conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+

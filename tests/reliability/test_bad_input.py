@@ -22,13 +22,12 @@ import json
 import math
 import re
 import shutil
-import sqlite3
 import uuid
 
 import pytest
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
-from reliability_kit import engineer_site
+from reliability_kit import engineer_site, open_database
 
 from fieldapp import db, services
 from fieldapp.queries import piles as piles_q
@@ -53,7 +52,7 @@ def site(tmp_path_factory, demo_template):
 
 def _state(site) -> tuple:
     """Everything a save or an import could change."""
-    conn = sqlite3.connect(str(site["data"] / "toeline.sqlite3"))
+    conn = open_database(site["data"])
     try:
         return (
             conn.execute("SELECT COUNT(*), COALESCE(MAX(id), 0) FROM pile_records").fetchone(),
