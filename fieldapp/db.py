@@ -569,10 +569,12 @@ class PgPool:
         self._pool.close()
 
 
-def close_pools() -> None:
-    """Close every PostgreSQL pool this process opened (tests, before a database is dropped)."""
+def close_pools(url: str | None = None) -> None:
+    """Close the PostgreSQL pools this process opened (on ``url`` only, when given): tests,
+    before a database is dropped."""
     for p in list(_open_pools):
-        p.close_all()
+        if url is None or p.url == url:
+            p.close_all()
 
 
 _identity_cache: dict[str, frozenset[str]] = {}

@@ -92,7 +92,8 @@ class PgServer:
 
     def copy(self, name: str, template: str) -> None:
         """(Re)make database ``name`` as a copy of ``template`` (no connection may be open to either)."""
-        db.close_pools()
+        db.close_pools(_database_url(name))
+        db.close_pools(_database_url(template))
         _admin(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)")
         _admin(f"CREATE DATABASE {name} TEMPLATE {template}")
 
@@ -133,7 +134,7 @@ def database_url(_pg_template, monkeypatch):
     url = _database_url(name)
     monkeypatch.setenv(db.DATABASE_URL_ENV, url)
     yield url
-    db.close_pools()
+    db.close_pools(url)
     _admin(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)")
 
 

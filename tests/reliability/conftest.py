@@ -13,8 +13,7 @@ from urllib.parse import urlsplit
 import pytest
 
 from fieldapp import create_app, db, demo
-
-DEMO_DATABASE = "toeline_test_demo"
+from reliability_kit import DEMO_DATABASE, DATABASE_MARK
 
 
 @pytest.fixture(scope="session")
@@ -28,7 +27,8 @@ def demo_template(tmp_path_factory, pg_server) -> Path:
     app = create_app(config, data_dir=folder)
     with app.app_context():
         demo.build(app)
-    db.close_pools()
+    if pg_server is not None:
+        db.close_pools(pg_server.url(DEMO_DATABASE))
     return folder
 
 
@@ -39,4 +39,5 @@ def demo_data(tmp_path, demo_template, database_url, pg_server) -> Path:
     shutil.copytree(demo_template, folder)
     if database_url:
         pg_server.copy(urlsplit(database_url).path.lstrip("/"), DEMO_DATABASE)
+        (folder / DATABASE_MARK).write_text(database_url)
     return folder

@@ -5,15 +5,19 @@ signed-in ``requests`` session, small generated images. The demo logins are ``de
 from __future__ import annotations
 
 import io
+import itertools
 import os
 import re
+import shutil
 import signal
 import socket
 import subprocess
 import sys
 import time
 from pathlib import Path
+from urllib.parse import urlsplit, urlunsplit
 
+import psycopg
 import requests
 from PIL import Image
 
@@ -35,7 +39,8 @@ class Server:
 
     def __init__(self, data: Path, *extra: str, env: dict | None = None, scheme: str = "http"):
         self.data, self.extra, self.scheme = data, extra, scheme
-        self.env = {**os.environ, **(env or {})}
+        url = database_of(data)
+        self.env = {**os.environ, **({"TOELINE_DATABASE_URL": url} if url else {}), **(env or {})}
         self.port = free_port()
         self.proc: subprocess.Popen | None = None
         self.log = data.parent / f"server-{self.port}.log"
@@ -117,11 +122,41 @@ def small_png(size: int = 32) -> bytes:
     return out.getvalue()
 
 
+# The PostgreSQL run: the demo's database, and the file in a data folder naming the database
+# that belongs to it (a module's copy of the demo has its own database; see copy_demo).
+DEMO_DATABASE = "toeline_test_demo"
+DATABASE_MARK = "test-database-url"
+_copies = itertools.count(1)
+
+
+def database_of(data: Path) -> str | None:
+    """The PostgreSQL database of a test data folder (None: SQLite in the folder)."""
+    mark = Path(data) / DATABASE_MARK
+    if mark.exists():
+        return mark.read_text().strip()
+    return os.environ.get("TOELINE_DATABASE_URL") or None
+
+
+def copy_demo(template: Path, data: Path) -> Path:
+    """Copy the demo data folder for a module's tests; on the PostgreSQL run also its database,
+    as a database of the folder's own (named in the folder)."""
+    shutil.copytree(template, data)
+    server = os.environ.get("TOELINE_TEST_DATABASE_URL")
+    if server:
+        name = f"toeline_test_module_{os.getpid()}_{next(_copies)}"
+        with psycopg.connect(server, autocommit=True) as conn:
+            conn.execute(f"CREATE DATABASE {name} TEMPLATE {DEMO_DATABASE}")
+        parts = urlsplit(server)
+        (data / DATABASE_MARK).write_text(urlunsplit(parts._replace(path="/" + name)))
+    return data
+
+
 def make_app(data: Path):
     """The Flask app on a data folder with CSRF on, as in production."""
     from fieldapp import create_app
 
-    return create_app({"TESTING": True}, data_dir=data)
+    url = database_of(data)
+    return create_app({"TESTING": True, **({"DATABASE_URL": url} if url else {})}, data_dir=data)
 
 
 def sign_in(client, role: str) -> str:
@@ -163,7 +198,7 @@ class _TupleRows:
 def open_database(data: Path):
     """The test's database as a plain DB-API connection with tuple rows: the SQLite file in the
     data folder, or the PostgreSQL database ``TOELINE_DATABASE_URL`` names (the PostgreSQL run)."""
-    url = os.environ.get("TOELINE_DATABASE_URL")
+    url = database_of(data)
     if url:
         from fieldapp import db
 

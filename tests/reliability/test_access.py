@@ -30,7 +30,7 @@ from html.parser import HTMLParser
 from pathlib import Path
 
 import pytest
-from reliability_kit import LOGINS, make_app, open_database, sign_in, small_jpeg
+from reliability_kit import LOGINS, copy_demo, make_app, open_database, sign_in, small_jpeg
 
 from fieldapp import db, photos, services
 from fieldapp.queries import audit, caps, ground, piles, projects, records, users
@@ -113,10 +113,9 @@ def _expect(endpoint: str) -> tuple[str, set[int]]:
 
 @pytest.fixture(scope="module")
 def world(tmp_path_factory, demo_template):
-    import shutil
 
     data = tmp_path_factory.mktemp("access") / "data"
-    shutil.copytree(demo_template, data)
+    copy_demo(demo_template, data)
     app = make_app(data)
     with app.app_context():
         conn = db.get_db()
