@@ -26,21 +26,34 @@ import os
 import re
 import sqlite3
 import threading
-import weakref
 from contextlib import contextmanager
-from functools import lru_cache
 from importlib import resources
 from pathlib import Path
 from typing import Any, Iterator
 
 from flask import current_app, g
 
-BUSY_TIMEOUT_MS = 15_000
+from fieldapp.db_postgres import (  # noqa: F401 - the PostgreSQL names are fieldapp.db's too
+    BUSY_TIMEOUT_MS,
+    PG_DISK_FULL,
+    PG_READ_ONLY,
+    WRITE_LOCK_KEY,
+    PgConnection,
+    PgCursor,
+    PgDatabaseError,
+    PgIntegrityError,
+    PgOperationalError,
+    PgPool,
+    Row,
+    _identity_cache,
+    _pg_raw_connect,
+    _pg_sql,
+    close_pools,
+)
+
 DATABASE_URL_ENV = "TOELINE_DATABASE_URL"
 POOL_SIZE_ENV = "TOELINE_DB_POOL_SIZE"
-# Advisory lock keys (PostgreSQL): one write lock for the whole database, one for migrations.
-WRITE_LOCK_KEY = 0x746F656C  # "toel"
-MIGRATE_LOCK_KEY = 0x746F6D67
+MIGRATE_LOCK_KEY = 0x746F6D67  # the advisory lock migrations take on PostgreSQL
 
 
 def is_postgres(target: str | Path | None) -> bool:
@@ -276,8 +289,6 @@ READ_ONLY_MESSAGE = ("The server's data folder is read-only: nothing was saved. 
                      "in its outbox).")
 DISK_FULL_MESSAGE = ("The server's disk is full: nothing was saved. Whoever runs the server must free disk "
                      "space; then save again (the tablet keeps unsent saves in its outbox).")
-_PG_READ_ONLY = {"25006"}              # read_only_sql_transaction (a standby, default_transaction_read_only)
-_PG_DISK_FULL = {"53100", "53200"}     # disk_full, out_of_memory
 
 
 def storage_fault(exc: BaseException) -> tuple[int, str] | None:
@@ -285,9 +296,9 @@ def storage_fault(exc: BaseException) -> tuple[int, str] | None:
     if isinstance(exc, sqlite3.OperationalError):
         sqlstate = getattr(exc, "sqlstate", None)
         text = str(exc).lower()
-        if sqlstate in _PG_READ_ONLY or (sqlstate is None and ("readonly" in text or "read-only" in text)):
+        if sqlstate in PG_READ_ONLY or (sqlstate is None and ("readonly" in text or "read-only" in text)):
             return 503, READ_ONLY_MESSAGE
-        if sqlstate in _PG_DISK_FULL or (sqlstate is None and "disk is full" in text):
+        if sqlstate in PG_DISK_FULL or (sqlstate is None and "disk is full" in text):
             return 507, DISK_FULL_MESSAGE
     elif isinstance(exc, OSError):
         if exc.errno == errno.EROFS:
@@ -347,280 +358,3 @@ def init_app(app) -> None:
     pool_ = ConnectionPool(app.config["DATABASE"])
     pool_.give(conn)
     app.extensions["toeline.db_pool"] = pool_
-
-
-# --------------------------------------------------------------------------------------------
-# PostgreSQL: psycopg 3 dressed as sqlite3
-# --------------------------------------------------------------------------------------------
-
-class PgIntegrityError(sqlite3.IntegrityError):
-    """A PostgreSQL integrity error (unique, foreign key, check, the append-only triggers), raised
-    as what the callers of the SQLite backend catch. ``sqlstate`` is PostgreSQL's code."""
-
-    sqlstate: str | None = None
-
-
-class PgOperationalError(sqlite3.OperationalError):
-    """A PostgreSQL operational error (connection lost, lock timeout, disk full, read-only)."""
-
-    sqlstate: str | None = None
-
-
-class PgDatabaseError(sqlite3.DatabaseError):
-    """Any other PostgreSQL error (syntax, data out of range)."""
-
-    sqlstate: str | None = None
-
-
-def _mapped(exc: Exception) -> sqlite3.DatabaseError:
-    import psycopg
-
-    sqlstate = getattr(exc, "sqlstate", None)
-    if isinstance(exc, psycopg.IntegrityError):
-        cls = PgIntegrityError
-    elif isinstance(exc, psycopg.OperationalError) or sqlstate in _PG_READ_ONLY | _PG_DISK_FULL:
-        cls = PgOperationalError
-    else:
-        cls = PgDatabaseError
-    out = cls(str(exc).strip())
-    out.sqlstate = sqlstate
-    return out
-
-
-class Row:
-    """A result row read as sqlite3.Row is: by index, by column name, ``keys()``, iteration."""
-
-    __slots__ = ("_values", "_index")
-
-    def __init__(self, values, index: dict[str, int]):
-        self._values = values
-        self._index = index
-
-    def __getitem__(self, key):
-        if isinstance(key, str):
-            return self._values[self._index[key]]
-        return self._values[key]
-
-    def keys(self) -> list[str]:
-        return list(self._index)
-
-    def __iter__(self):
-        return iter(self._values)
-
-    def __len__(self) -> int:
-        return len(self._values)
-
-    def __eq__(self, other) -> bool:
-        return isinstance(other, Row) and self._values == other._values and self._index == other._index
-
-    def __hash__(self) -> int:
-        return hash(tuple(self._values))
-
-    def __repr__(self) -> str:
-        return f"Row({dict(zip(self._index, self._values, strict=True))!r})"
-
-
-def _row_factory(cursor):
-    names = [d.name for d in cursor.description or ()]
-    index = {}
-    for i, name in enumerate(names):
-        index.setdefault(name, i)  # the first column of a name wins, as in sqlite3.Row
-    return lambda values: Row(values, index)
-
-
-class PgCursor:
-    """What ``execute`` returns: ``fetchone``, ``fetchall``, iteration, ``lastrowid``, ``rowcount``."""
-
-    __slots__ = ("_cur", "lastrowid", "rowcount")
-
-    def __init__(self, cur, returns_id: bool):
-        self._cur = cur
-        self.rowcount = cur.rowcount
-        self.lastrowid = None
-        if returns_id:
-            row = cur.fetchone()
-            self.lastrowid = row[0] if row else None
-
-    def fetchone(self):
-        return self._cur.fetchone() if self._cur.description else None
-
-    def fetchall(self) -> list:
-        return self._cur.fetchall() if self._cur.description else []
-
-    def __iter__(self):
-        return iter(self.fetchall())
-
-
-class PgConnection:
-    """A psycopg connection with the sqlite3 surface the queries use (see the module docstring)."""
-
-    dialect = "postgresql"
-
-    def __init__(self, raw):
-        self.raw = raw
-
-    @property
-    def in_transaction(self) -> bool:
-        from psycopg.pq import TransactionStatus
-
-        return self.raw.info.transaction_status != TransactionStatus.IDLE
-
-    def execute(self, sql: str, params: Any = (), row_factory: Any = _row_factory) -> PgCursor:
-        import psycopg
-        from psycopg.rows import tuple_row
-
-        text, returns_id = _pg_sql(sql, bool(params), _identity_tables(self))
-        cur = self.raw.cursor(row_factory=row_factory or tuple_row)
-        try:
-            cur.execute(text, params or None)
-        except psycopg.Error as exc:
-            raise _mapped(exc) from exc
-        return PgCursor(cur, returns_id)
-
-    def cursor(self) -> "_PgCursorMaker":
-        """A cursor as sqlite3's: ``row_factory = None`` gives plain tuples."""
-        return _PgCursorMaker(self)
-
-    def begin_write(self) -> None:
-        """``BEGIN`` and the write lock (see :func:`write`); waits at most the busy timeout."""
-        self.execute("BEGIN")
-        try:
-            self.execute("SELECT pg_advisory_xact_lock(?)", (WRITE_LOCK_KEY,))
-        except BaseException:
-            self.execute("ROLLBACK")
-            raise
-
-    def close(self) -> None:
-        self.raw.close()
-
-
-class _PgCursorMaker:
-    __slots__ = ("conn", "row_factory")
-
-    def __init__(self, conn: PgConnection):
-        self.conn = conn
-        self.row_factory = _row_factory
-
-    def execute(self, sql: str, params: Any = ()) -> PgCursor:
-        return self.conn.execute(sql, params, self.row_factory)
-
-
-def _pg_configure(raw) -> None:
-    """Session settings of every PostgreSQL connection: autocommit (transactions are explicit),
-    sqlite3-like rows, a lock wait as long as SQLite's busy timeout, whole numbers from SUM."""
-    from psycopg.types.numeric import NumericLoader
-
-    class _WholeOrFloat(NumericLoader):
-        # SUM and AVG of integers come back NUMERIC; the app stores no NUMERIC columns, and
-        # sqlite3 gives int or float, so give the same.
-        def load(self, data):
-            value = super().load(data)
-            return int(value) if value == value.to_integral_value() else float(value)
-
-    raw.autocommit = True
-    raw.row_factory = _row_factory
-    raw.adapters.register_loader("numeric", _WholeOrFloat)
-    raw.execute(f"SET lock_timeout = '{BUSY_TIMEOUT_MS}ms'")
-    raw.execute("SET TIME ZONE 'UTC'")
-
-
-def _pg_raw_connect(url: str):
-    import psycopg
-
-    try:
-        raw = psycopg.connect(url, autocommit=True)
-    except psycopg.Error as exc:
-        raise _mapped(exc) from exc
-    _pg_configure(raw)
-    return raw
-
-
-_open_pools: weakref.WeakSet = weakref.WeakSet()
-
-
-class PgPool:
-    """The PostgreSQL pool (``psycopg_pool.ConnectionPool``) behind the same take/give/close_all
-    as the SQLite one. ``size`` is the most connections this process holds."""
-
-    def __init__(self, url: str, size: int = 10):
-        from psycopg_pool import ConnectionPool as _Pool
-
-        self.url = url
-        self.size = size
-        self._pool = _Pool(url, min_size=1, max_size=size, configure=_pg_configure, open=True,
-                           timeout=BUSY_TIMEOUT_MS / 1000, name="toeline")
-        _open_pools.add(self)
-
-    def take(self) -> PgConnection:
-        return PgConnection(self._pool.getconn())
-
-    def give(self, conn: PgConnection, broken: bool = False) -> None:
-        raw = conn.raw
-        try:
-            if not raw.closed and conn.in_transaction:
-                raw.execute("ROLLBACK")
-        except Exception:
-            broken = True
-        if broken and not raw.closed:
-            raw.close()  # the pool drops a closed connection and opens a fresh one when needed
-        self._pool.putconn(raw)
-
-    def close_all(self) -> None:
-        self._pool.close()
-
-
-def close_pools(url: str | None = None) -> None:
-    """Close the PostgreSQL pools this process opened (on ``url`` only, when given): tests,
-    before a database is dropped."""
-    for p in list(_open_pools):
-        if url is None or p.url == url:
-            p.close_all()
-
-
-_identity_cache: dict[str, frozenset[str]] = {}
-_identity_lock = threading.Lock()
-
-
-def _identity_tables(conn: PgConnection) -> frozenset[str]:
-    """Tables whose ``id`` is an identity column: an INSERT into them returns its id."""
-    key = conn.raw.info.dsn
-    found = _identity_cache.get(key)
-    if found is None:
-        cur = conn.raw.cursor()
-        cur.execute("SELECT table_name FROM information_schema.columns WHERE column_name = 'id' "
-                    "AND is_identity = 'YES' AND table_schema = ANY (current_schemas(false))")
-        found = frozenset(r[0] for r in cur.fetchall())
-        with _identity_lock:
-            _identity_cache[key] = found
-    return found
-
-
-
-_INSERT_INTO = re.compile(r"^\s*INSERT\s+INTO\s+(\w+)", re.IGNORECASE)
-_NAMED = re.compile(r"(?<![:\w]):([A-Za-z_]\w*)")
-
-
-@lru_cache(maxsize=4096)
-def _pg_sql(sql: str, has_params: bool, id_tables: frozenset[str]) -> tuple[str, bool]:
-    """The query in psycopg's dialect and whether it returns the new row's id.
-
-    ``?`` and ``:name`` outside string literals become ``%s`` and ``%(name)s``; a literal ``%``
-    is doubled (only when parameters are passed: without them psycopg sends the text as it is);
-    an INSERT into a table with an identity ``id`` and no RETURNING gets ``RETURNING id``, so
-    ``lastrowid`` works as on SQLite."""
-    text = sql
-    if has_params:
-        parts = re.split(r"('(?:[^']|'')*'|\"(?:[^\"]|\"\")*\")", sql)
-        out = []
-        for i, part in enumerate(parts):
-            if i % 2:  # a quoted literal or identifier: only % needs escaping
-                out.append(part.replace("%", "%%"))
-            else:
-                part = part.replace("%", "%%").replace("?", "%s")
-                out.append(_NAMED.sub(r"%(\1)s", part))
-        text = "".join(out)
-    match = _INSERT_INTO.match(sql)
-    returns_id = bool(match and match.group(1).lower() in id_tables and "RETURNING" not in sql.upper())
-    if returns_id:
-        text = text.rstrip().rstrip(";") + " RETURNING id"
-    return text, returns_id

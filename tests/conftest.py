@@ -28,7 +28,7 @@ ROLES = ("admin", "engineer", "inspector", "viewer")
 _PRODUCTION_HASHER = users._hasher
 
 TEST_DATABASE_URL = os.environ.get("TOELINE_TEST_DATABASE_URL", "").strip()
-_TEMPLATE = "toeline_test_template"
+_TEMPLATE = f"toeline_test_template_{os.getpid()}"  # one per pytest process
 _numbers = itertools.count(1)
 
 # Tests about the SQLite file and its tools (PRAGMAs, the file-copy backup, sqlite3 opened on the

@@ -124,7 +124,7 @@ def small_png(size: int = 32) -> bytes:
 
 # The PostgreSQL run: the demo's database, and the file in a data folder naming the database
 # that belongs to it (a module's copy of the demo has its own database; see copy_demo).
-DEMO_DATABASE = "toeline_test_demo"
+DEMO_DATABASE = f"toeline_test_demo_{os.getpid()}"
 DATABASE_MARK = "test-database-url"
 _copies = itertools.count(1)
 
