@@ -76,6 +76,9 @@ class PhotoStore(Protocol):
     def local_path(self, key: str) -> Path | None:
         """A file on this machine holding ``key`` (to serve it with send_file), or None."""
 
+    def delete(self, key: str) -> None:
+        """Remove ``key`` (no error when it is not there): only for files no photo row names."""
+
 
 class DirectoryStore:
     """Photo files under one folder (the data folder's ``photos/`` by default)."""
@@ -120,6 +123,9 @@ class DirectoryStore:
     def local_path(self, key: str) -> Path | None:
         path = self._path(key)
         return path if path.is_file() else None
+
+    def delete(self, key: str) -> None:
+        self._path(key).unlink(missing_ok=True)
 
 
 class S3Store:
@@ -186,6 +192,9 @@ class S3Store:
 
     def local_path(self, key: str) -> Path | None:
         return None
+
+    def delete(self, key: str) -> None:
+        self.client.delete_object(Bucket=self.bucket, Key=self._name(key))
 
 
 def open_store(spec: str | Path) -> PhotoStore:
