@@ -232,20 +232,19 @@ def close_pools(url: str | None = None) -> None:
             p.close_all()
 
 
-_identity_cache: dict[str, frozenset[str]] = {}
+# per connection (a query the first time; the DSN would cost more to read than the query itself)
+_identity_cache: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 
 def _identity_tables(conn: PgConnection) -> frozenset[str]:
     """Tables whose ``id`` is an identity column: an INSERT into them returns its id."""
-    key = conn.raw.info.dsn
-    found = _identity_cache.get(key)
+    found = _identity_cache.get(conn.raw)
     if found is None:
         cur = conn.raw.cursor()
         cur.execute("SELECT table_name FROM information_schema.columns WHERE column_name = 'id' "
                     "AND is_identity = 'YES' AND table_schema = ANY (current_schemas(false))")
-        found = _identity_cache[key] = frozenset(r[0] for r in cur.fetchall())
+        found = _identity_cache[conn.raw] = frozenset(r[0] for r in cur.fetchall())
     return found
-
 
 
 _INSERT_INTO = re.compile(r"^\s*INSERT\s+INTO\s+(\w+)", re.IGNORECASE)
