@@ -310,3 +310,47 @@ def test_migrate_to_refuses_a_project_id_taken_on_the_server_and_writes_nothing(
     finally:
         dst.close()
     assert not (tmp_path / "server-photos").exists()  # refused before any file was copied
+
+
+def _migrate_at_once(connect, n: int = 4) -> list[list[str]]:
+    """``n`` server processes starting together: each opens a connection and migrates."""
+    results: list = [None] * n
+    go = threading.Barrier(n)
+
+    def start(i: int) -> None:
+        conn = connect()
+        try:
+            go.wait()
+            results[i] = db.migrate(conn)
+        except BaseException as exc:
+            results[i] = exc
+        finally:
+            conn.close()
+
+    threads = [threading.Thread(target=start, args=(i,)) for i in range(n)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join(timeout=120)
+    return results
+
+
+def test_workers_starting_together_apply_each_sqlite_migration_once(tmp_path):
+    results = _migrate_at_once(lambda: db.connect(tmp_path / "toeline.sqlite3"))
+    assert not [r for r in results if isinstance(r, BaseException)], results
+    applied = sorted(name for r in results for name in r)
+    assert applied == sorted(name for _, name, _ in db.migration_files())
+
+
+@postgres
+def test_workers_starting_together_apply_each_postgres_migration_once(pg_server):
+    name = "toeline_test_fresh"
+    pg_server.admin(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)")
+    pg_server.admin(f"CREATE DATABASE {name}")
+    try:
+        results = _migrate_at_once(lambda: db.connect(pg_server.url(name)))
+        assert not [r for r in results if isinstance(r, BaseException)], results
+        applied = sorted(n for r in results for n in r)
+        assert applied == sorted(n for _, n, _ in db.migration_files("postgresql"))
+    finally:
+        pg_server.admin(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)")
