@@ -210,14 +210,15 @@ class PgPool:
         return PgConnection(self._pool.getconn())
 
     def give(self, conn: PgConnection, broken: bool = False) -> None:
+        """Take a connection back, rolled back if a transaction was left open. A request that
+        failed (``broken``) leaves a connection that is still good once rolled back; one that
+        cannot be rolled back (the server went away) is closed, and the pool opens a new one."""
         raw = conn.raw
         try:
             if not raw.closed and conn.in_transaction:
                 raw.execute("ROLLBACK")
         except Exception:
-            broken = True
-        if broken and not raw.closed:
-            raw.close()  # the pool drops a closed connection and opens a fresh one when needed
+            raw.close()
         self._pool.putconn(raw)
 
     def close_all(self) -> None:
