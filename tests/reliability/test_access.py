@@ -25,13 +25,12 @@ from __future__ import annotations
 
 import io
 import re
-import sqlite3
 import uuid
 from html.parser import HTMLParser
 from pathlib import Path
 
 import pytest
-from reliability_kit import LOGINS, make_app, sign_in, small_jpeg
+from reliability_kit import LOGINS, copy_demo, make_app, open_database, sign_in, small_jpeg
 
 from fieldapp import db, photos, saving
 from fieldapp.queries import audit, caps, ground, locations, piles, projects, records, users
@@ -125,10 +124,9 @@ def _expect(endpoint: str) -> tuple[str, set[int]]:
 
 @pytest.fixture(scope="module")
 def world(tmp_path_factory, demo_template):
-    import shutil
 
     data = tmp_path_factory.mktemp("access") / "data"
-    shutil.copytree(demo_template, data)
+    copy_demo(demo_template, data)
     app = make_app(data)
     with app.app_context():
         conn = db.get_db()
@@ -274,9 +272,9 @@ class Door:
 
 
 def _fingerprint(data) -> tuple:
-    conn = sqlite3.connect(str(data / "toeline.sqlite3"))
+    conn = open_database(data)
     try:
-        return tuple(conn.execute(f"SELECT COUNT(*), COALESCE(MAX(rowid), 0) FROM {table}").fetchone()
+        return tuple(conn.execute(f"SELECT COUNT(*), COALESCE(MAX(id), 0) FROM {table}").fetchone()
                      for table in ("audit_log", "pile_records", "photos", "piles", "caps", "ground_models",
                                    "rule_sets"))
     finally:
