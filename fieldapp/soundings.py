@@ -21,7 +21,7 @@ from design_core.rules import Rules
 from fieldapp import db, drawings
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.drawings import (
-    DESIGN, INK, MUTED, Axis, Figure, Polyline, Rect, Text, empty_figure, finite, frame, legend_grid,
+    INK, MUTED, Axis, Figure, Polyline, Rect, Text, empty_figure, finite, frame, legend_grid,
     nice_ticks,
 )
 from fieldapp.insitu_io import InsituFileError, parse_cpt, parse_spt
