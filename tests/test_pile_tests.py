@@ -357,3 +357,30 @@ def test_the_api_lists_a_piles_tests(app, client, auth, people, site):
     body = client.get(f"/api/v1/projects/{pid}/piles/S1/tests").get_json()
     assert body["pile"] == "S1" and [t["kind"] for t in body["tests"]] == ["low_strain"]
     assert body["tests"][0]["check"]["ok"] is True
+
+
+# --- the command line -------------------------------------------------------------------------
+
+def test_the_command_line_adds_a_test_or_refuses_it_whole(app, people, site, tmp_path):
+    import click
+    from click.testing import CliRunner
+
+    from fieldapp import pile_tests_cli
+
+    group = click.Group()
+    pile_tests_cli.register(group)  # the lead adds it to toeline's commands
+    base = ["pile-test", "add", "--data", app.config["DATA_DIR"], str(site["pid"]), "S1",
+            "--date", "2026-03-12", "--by", "Test house", "--as", people["inspector"]]
+    bad = tmp_path / "bad.csv"
+    bad.write_bytes(b"load_kn,settlement_mm\n0,0\n1000,-99\n")
+    refused = CliRunner().invoke(group, base + ["--kind", "static_compression", "--file", str(bad),
+                                                "--e-mpa", "30000"])
+    assert refused.exit_code == 1 and "row 3, column settlement_mm" in refused.output
+    assert _count(app, "pile_tests") == 0
+    done = CliRunner().invoke(group, base + ["--kind", "low_strain", "--rating", "anomaly",
+                                             "--anomaly-depth", "5.5"])
+    assert done.exit_code == 0, done.output
+    assert _current(app, site["pid"], "S1").verdict == "needs engineer"
+    viewer = CliRunner().invoke(group, base[:-1] + [people["viewer"], "--kind", "low_strain",
+                                                    "--rating", "sound"])
+    assert viewer.exit_code == 2 and _count(app, "pile_tests") == 1
