@@ -384,3 +384,15 @@ def test_the_command_line_adds_a_test_or_refuses_it_whole(app, people, site, tmp
     viewer = CliRunner().invoke(group, base[:-1] + [people["viewer"], "--kind", "low_strain",
                                                     "--rating", "sound"])
     assert viewer.exit_code == 2 and _count(app, "pile_tests") == 1
+
+
+def test_the_review_screens_show_the_test_check(app, client, auth, people, site):
+    pid = site["pid"]
+    auth.login(people["engineer"])
+    _post(client, auth, pid, "S1", kind="low_strain", rating="defect", anomaly_depth_m="7.25",
+          description="loss of section")
+    queue = client.get(f"/projects/{pid}/review")
+    pile = client.get(f"/projects/{pid}/review/piles/S1")
+    assert queue.status_code == 200 and pile.status_code == 200
+    assert "loss of section" in queue.get_data(as_text=True)
+    assert "7.25 m" in pile.get_data(as_text=True)
