@@ -15,6 +15,7 @@ from typing import Any
 
 from design_core.loadtest import davisson_line
 from design_core.rules import Rules
+from fieldapp.pile_test_register import PROOF_ONLY_KINDS
 from fieldapp.drawings import (
     DESIGN, INK, MUTED, OK, SHORT, WARN, Axis, Circle, Figure, Line, Polyline, Rect, Text,
     empty_figure, finite, frame, legend_grid, nice_ticks, thin,
@@ -42,7 +43,7 @@ def load_test_figure(result: dict[str, Any], rules: Rules | None = None, width: 
     answers = [v for v in (dav, chin.get("value_kn"), hansen.get("value_kn"), beer.get("value_kn"))
                if isinstance(v, (int, float)) and math.isfinite(v)]
     qmax = max(q + rq + answers) * 1.08 or 1.0
-    lateral = result.get("kind") == "static_lateral"
+    lateral = result.get("kind") in PROOF_ONLY_KINDS
     geometry = all(isinstance(result.get(k), (int, float)) for k in
                    ("length_m", "area_m2", "e_mpa", "diameter_m")) and not lateral
     line_end = None
@@ -61,7 +62,7 @@ def load_test_figure(result: dict[str, Any], rules: Rules | None = None, width: 
         fig.add(Rect(x(lo), plot[1], x(hi) - x(lo), plot[3] - plot[1], None, BAND))
         entries.append((BAND, f"fit range {lo:.0f}-{hi:.0f} kN", None, "dot"))
     frame(fig, x, y, nice_ticks(0, qmax), nice_ticks(smin, smax), "load (kN)",
-          "settlement (mm, down)" if not lateral else "deflection (mm)")
+          "settlement (mm, down)" if not lateral else "movement of the head (mm)")
     if len(rq) == len(rs) and len(rq) >= 2:
         fig.add(Polyline(thin((x(a), y(b)) for a, b in zip(rq, rs, strict=True)), MUTED, 0.8))
     fig.add(Polyline(thin((x(a), y(b)) for a, b in zip(q, s, strict=True)), INK, 1.6))

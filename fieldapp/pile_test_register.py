@@ -54,6 +54,7 @@ KINDS: dict[str, tuple[str, str, str]] = {
 FAMILIES = ("integrity", "dynamic", "static")
 FAMILY_CODE = {"integrity": "integrity", "dynamic": "load_test", "static": "load_test"}
 MATERIALS = ("concrete", "steel")
+PROOF_ONLY_KINDS = ("static_tension", "static_lateral")  # no Davisson capacity read from these
 MAX_FILE_BYTES = 25 * 1024 * 1024
 FILE_DIR = "test_files"
 
@@ -136,16 +137,19 @@ def static_result(record: LoadTestRecord, kind: str, length_m: float, area_m2: f
     the check against ``required_kn`` (``load_test_check``; not checked without it) and the
     ratio of the measured capacity to the recheck's ultimate (printed, never fed back).
 
-    A lateral test (ASTM D3966) reads head deflection: Davisson's line is for axial load, so
-    it is reported as a proof test (the load met and the deflection) and no capacity is drawn
-    from it.
+    Davisson's offset limit is a rule for compression. A tension test (ASTM D3689, head
+    movement up taken positive) and a lateral test (ASTM D3966, head deflection) are reported
+    as proof tests (the load met and the movement): no capacity is drawn from them, and the
+    compression ultimate of the recheck is not compared with them.
     """
     res = interpret_load_test(record, length_m, area_m2, e_mpa, diameter_m, rules)
-    if kind == "static_lateral":
+    if kind in PROOF_ONLY_KINDS:
+        what = "Lateral" if kind == "static_lateral" else "Tension"
         res = replace(res, davisson_kn=None,
-                      reason=f"Lateral load {res.max_load_kn:.0f} kN met at "
-                             f"{res.settlement_at_max_mm:.1f} mm deflection (no capacity is "
-                             "read from a lateral test here).")
+                      reason=f"{what} load {res.max_load_kn:.0f} kN met at "
+                             f"{res.settlement_at_max_mm:.1f} mm movement of the head (no "
+                             f"capacity is read from a {what.lower()} test here).")
+        recheck_ultimate_kn = None
     if required_kn is None:
         check = Check.not_checked("load_test", "kN", f"Load test: {res.reason} No required "
                                   "load given to check against.")

@@ -396,3 +396,18 @@ def test_the_review_screens_show_the_test_check(app, client, auth, people, site)
     assert queue.status_code == 200 and pile.status_code == 200
     assert "loss of section" in queue.get_data(as_text=True)
     assert "7.25 m" in pile.get_data(as_text=True)
+
+
+def test_a_tension_test_reads_no_davisson_capacity(app, client, auth, people, site):
+    """Davisson's offset limit is a compression rule (Fellenius 2001): the same failing curve as
+    a tension test gives the load met, not 4267 kN."""
+    pid = site["pid"]
+    auth.login(people["engineer"])
+    r = _post(client, auth, pid, "S1", {"file": (FAILING, "uplift.csv")}, kind="static_tension",
+              e_mpa=str(E_MPA), required_kn="4500")
+    assert r.status_code == 303
+    with app.app_context():
+        test = tests_q.for_pile(db.get_db(), _pile(app, pid, "S1").id)[0]
+    assert test.result["davisson_kn"] is None and test.result["recheck_ultimate_kn"] is None
+    assert test.check["ok"] is True and "capacity not measured" in test.check["reason"]
+    assert client.get(f"/projects/{pid}/tests/{test.id}").status_code == 200
