@@ -167,7 +167,10 @@ def _order(first: str, a: datetime | None, second: str, b: datetime | None,
 
 
 def unicode_problem(text: str) -> str | None:
-    """Why ``text`` is not valid Unicode text (a lone surrogate, which UTF-8 cannot hold), or None."""
+    """Why ``text`` is not valid Unicode text (a lone surrogate, which UTF-8 cannot hold), or
+    holds a NUL character (which no text column of PostgreSQL can store, and no log needs), or None."""
+    if "\x00" in text:
+        return f"must not contain the NUL character (character {text.index(chr(0)) + 1})"
     try:
         text.encode("utf-8")
     except UnicodeEncodeError as exc:
