@@ -20,6 +20,8 @@ import sqlite3
 from dataclasses import dataclass
 from datetime import datetime, timezone
 
+from fieldapp.db_postgres import PgConnection
+
 GENESIS = "0" * 64
 
 
@@ -360,17 +362,26 @@ def check_anchor(conn: sqlite3.Connection, anchor: Anchor) -> str | None:
     return None
 
 
+def _table_columns(conn) -> dict[str, set[str]]:
+    """Every table of the database and its column names, on either backend."""
+    if isinstance(conn, PgConnection):
+        out: dict[str, set[str]] = {}
+        for row in conn.execute("SELECT table_name, column_name FROM information_schema.columns "
+                                "WHERE table_schema = current_schema() ORDER BY table_name").fetchall():
+            out.setdefault(row[0], set()).add(row[1])
+        return out
+    tables = [r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type = 'table'").fetchall()]
+    return {t: {r[1] for r in conn.execute(f"PRAGMA table_info({t})").fetchall()} for t in tables}
+
+
 def stored_anchors(conn: sqlite3.Connection) -> list[Anchor]:
     """Heads kept in the database beside the chain: every table with ``project_id`` and
     ``head_hash`` columns (the record builds, the issued records), with ``head_seq`` when the
     table has it. A head in the same file can be deleted with the chain, but not rewritten
     with it unseen."""
     out = []
-    tables = [r[0] for r in conn.execute(
-        "SELECT name FROM sqlite_master WHERE type = 'table' AND name != 'audit_log'").fetchall()]
-    for table in tables:
-        columns = {r[1] for r in conn.execute(f"PRAGMA table_info({table})").fetchall()}
-        if not {"project_id", "head_hash"} <= columns:
+    for table, columns in _table_columns(conn).items():
+        if table == "audit_log" or not {"project_id", "head_hash"} <= columns:
             continue
         seq = "head_seq" if "head_seq" in columns else "NULL"
         for row in conn.execute(f"SELECT id, project_id, {seq} AS seq, head_hash FROM {table} "
