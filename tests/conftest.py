@@ -43,6 +43,9 @@ SQLITE_ONLY = {
                                  "the triggers and verification on PostgreSQL)",
     "tests/reliability/test_backup.py": "the SQLite file backup (pg_dump is tested in test_postgres)",
     "tests/reliability/test_disk_faults.py": "SQLite's read-only and disk-full faults",
+    "tests/reliability/test_restore_guard.py": "the SQLite file backup and restore (a company server "
+                                               "restores with pg_restore, tested in test_postgres)",
+    "tests/reliability/test_tamper.py": "tampers with the SQLite file through sqlite3, and its backups",
 }
 
 
