@@ -4,7 +4,9 @@ Units throughout: kN, kPa, m (levels are reduced levels in metres, higher is up)
 the trade uses mm, and then the name says so (``cover_mm``).
 """
 
-from design_core.checks import CHECK_CODES, MEETS_DESIGN, NEEDS_ENGINEER, Check, PileVerdict
+from design_core.checks import (
+    CHECK_CODES, CHECK_LABELS, MEETS_DESIGN, NEEDS_ENGINEER, Check, PileVerdict,
+)
 from design_core.rules import ExposureClass, RuleDoc, Rules
 from design_core.inputs import AsBuilt, CapGroup, CapPile, Delivery, PileDesign, StratumMet
 from design_core.ground import Borrowed, GroundModel, Layer, ground_from_strata
@@ -19,10 +21,16 @@ from design_core.lateral import (
     winkler_unit_responses,
 )
 from design_core.group import across_moment, group_shares
-from design_core.recheck import ProjectItem, recheck, recheck_project
+from design_core.memo import MEMO
+# Temporary, removed at merge: load the old module name first, so that the function bound below
+# (not the shim module design_core/recheck.py) is what ``design_core.recheck`` names.
+import design_core.recheck  # noqa: E402,F401
+from design_core.verdict import (  # noqa: E402
+    ProjectItem, RequiredToe, recheck, recheck_project, required_toe,
+)
 
 __all__ = [
-    "CHECK_CODES", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict",
+    "CHECK_CODES", "CHECK_LABELS", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict",
     "ExposureClass", "RuleDoc", "Rules",
     "AsBuilt", "CapGroup", "CapPile", "Delivery", "PileDesign", "StratumMet",
     "Borrowed", "GroundModel", "Layer", "ground_from_strata",
@@ -33,5 +41,5 @@ __all__ = [
     "BromsResult", "WinklerResult", "broms_lateral", "solve_pentadiagonal", "winkler_pile",
     "winkler_result", "winkler_unit_responses",
     "across_moment", "group_shares",
-    "ProjectItem", "recheck", "recheck_project",
+    "MEMO", "ProjectItem", "RequiredToe", "recheck", "recheck_project", "required_toe",
 ]

@@ -1,10 +1,14 @@
 """Axial capacity of a single pile: shaft, base, design resistance, tension, capacity curve.
 
+The result objects are in ``design_core.axial_results``, the point formulas (alpha, K, beta,
+N_q) in ``design_core.soil_factors`` and the shaft grid in ``design_core.shaft_profile``; all
+are importable from here.
+
 Units: levels and lengths in m (levels are reduced levels, higher is up), diameter in m,
 stresses and unit resistances in kPa, forces in kN, angles in degrees.
 
-Method (PRODUCT.md sections 5-6; REFERENCES.md sections 1-5)
--------------------------------------------------------------
+Method
+------
 * sigma'_v from the top of the ground model, gamma - gamma_w below the water level
   (Terzaghi; see ``design_core.ground``).
 * Shaft: Q_s = integral over the shaft of pi D f_s(z) dz, ignored from ``top_level`` down
@@ -46,258 +50,45 @@ and ``capacity_curve`` use one grid and agree to rounding.
 
 from __future__ import annotations
 
+import bisect
 import math
-import threading
-from collections import OrderedDict
-from dataclasses import asdict, dataclass, field
-from functools import lru_cache
 from typing import Any
 
 import numpy as np
 
 from design_core.ground import LEVEL_TOL_M, GroundModel
-from design_core.validate import number
+from design_core.axial_results import AxialResult, CapacityCurve, ShaftRow, TensionResult
 from design_core.inputs import LEVEL_LIMIT_M, PILE_TYPES
+from design_core.memo import MEMO
 from design_core.rules import Rules
+from design_core.shaft_profile import (
+    _BASE_METHODS, _IGNORE, GAUSS_POINTS, MAX_STEP_M, SHAFT_METHODS, _Profile, shaft_profile,
+)
+from design_core.soil_factors import (
+    alpha_api, alpha_factor, beta_factor, earth_pressure_k, n_q,
+)
+from design_core.validate import number
 
-GAUSS_POINTS = 5
-MAX_STEP_M = 0.5
+# Re-exported: the point formulas and the shaft profile live in their own modules.
+__all__ = [
+    "GAUSS_POINTS", "MAX_STEP_M", "SHAFT_METHODS", "DIAMETER_MAX_M", "alpha_api", "alpha_factor",
+    "beta_factor", "earth_pressure_k", "n_q", "shaft_profile", "clear_shared_profiles",
+    "pile_area", "ShaftRow", "AxialResult", "TensionResult", "CapacityCurve", "axial_capacity",
+    "unit_shaft_friction", "pile_weight", "tension_design", "design_words", "tension_words", "tension_capacity", "capacity_curve",
+    "curve_levels", "layer_steps", "pile_capacity_curve", "prime_capacity_points", "required_toe_level",
+]
+
 DIAMETER_MAX_M = 5.0
 
-SHAFT_METHODS = ("alpha", "beta", "report", "ignored", "excluded")
 
-# Method codes per layer (shaft) and per toe (base).
-_IGNORE, _ALPHA, _BETA, _REPORT = 0, 1, 2, 3
-_BASE_NONE, _BASE_NC, _BASE_NQ, _BASE_REPORT = 0, 1, 2, 3
-_BASE_METHODS = {_BASE_NONE: "ignored", _BASE_NC: "Nc cu", _BASE_NQ: "Nq sigma'v",
-                 _BASE_REPORT: "report"}
-
-
-# --------------------------------------------------------------------------------------------
-# Point formulas (vectorised)
-# --------------------------------------------------------------------------------------------
-
-def alpha_api(psi: float | np.ndarray, alpha_max: float = 1.0) -> float | np.ndarray:
-    """Adhesion factor alpha of the API rule for psi = c_u / sigma'_v (dimensionless).
-
-    alpha = 0.5 psi^-0.5 for psi <= 1, 0.5 psi^-0.25 for psi > 1, alpha <= alpha_max
-    (API RP 2A-WSD 21st ed. 2000, 6.4.2; API RP 2GEO 2011; Randolph & Murphy 1985).
-    Valid for psi > 0.
-    """
-    psi = np.asarray(psi, dtype=float)
-    if np.any(~np.isfinite(psi)) or np.any(psi <= 0.0):
-        raise ValueError("psi (c_u / sigma'_v) must be a finite number greater than 0")
-    alpha = np.minimum(np.where(psi <= 1.0, 0.5 * psi ** -0.5, 0.5 * psi ** -0.25), alpha_max)
-    return float(alpha) if alpha.ndim == 0 else alpha
-
-
-def alpha_factor(cu: float | np.ndarray, sigma_v_eff: float | np.ndarray,
-                 rules: Rules | None = None) -> float | np.ndarray:
-    """Adhesion factor alpha for c_u (kPa) and sigma'_v (kPa) by the rules' ``alpha_rule``.
-
-    "api": see ``alpha_api``. "power": alpha = C (sigma'_v / c_u)^n with C = ``alpha_c`` and
-    n = ``alpha_n`` (an engineer's rule, not a named published method; REFERENCES.md 2b).
-    Both capped at ``alpha_max``. Valid for c_u > 0 and sigma'_v > 0 (kPa).
-    """
-    rules = rules or Rules()
-    cu = np.asarray(cu, dtype=float)
-    sig = np.asarray(sigma_v_eff, dtype=float)
-    if np.any(~np.isfinite(cu)) or np.any(cu <= 0.0):
-        raise ValueError("cu must be a finite number greater than 0 kPa")
-    if np.any(~np.isfinite(sig)) or np.any(sig <= 0.0):
-        raise ValueError("sigma_v_eff must be a finite number greater than 0 kPa")
-    alpha = _f_alpha(cu, sig, rules) / cu
-    return float(alpha) if alpha.ndim == 0 else alpha
-
-
-def _f_alpha(cu: np.ndarray, sig: np.ndarray, rules: Rules) -> np.ndarray:
-    """Unit shaft friction alpha c_u (kPa), written without dividing by sigma'_v (may be 0)."""
-    if rules.alpha_rule == "api":
-        # alpha c_u = 0.5 sqrt(c_u sigma'_v) for psi <= 1; 0.5 c_u^0.75 sigma'_v^0.25 for psi > 1
-        f = np.where(cu <= sig, 0.5 * np.sqrt(cu * sig), 0.5 * cu ** 0.75 * sig ** 0.25)
-    else:
-        f = rules.alpha_c * sig ** rules.alpha_n * cu ** (1.0 - rules.alpha_n)
-    return np.minimum(f, rules.alpha_max * cu)
-
-
-def _alpha_kinks(rules: Rules) -> list[float]:
-    """Values of psi = c_u / sigma'_v where the alpha rule has a kink (branch change or cap)."""
-    amax = rules.alpha_max
-    if rules.alpha_rule == "api":
-        return [1.0, (0.5 / amax) ** 2, (0.5 / amax) ** 4]
-    if rules.alpha_n > 0.0:
-        return [(rules.alpha_c / amax) ** (1.0 / rules.alpha_n)]
-    return []
-
-
-def earth_pressure_k(phi: float | np.ndarray, rules: Rules | None = None) -> float | np.ndarray:
-    """Earth pressure coefficient K on the shaft: 1 - sin(phi') (Jaky 1944) or ``k_fixed``.
-
-    phi' in degrees (10-50).
-    """
-    rules = rules or Rules()
-    phi = np.asarray(phi, dtype=float)
-    k = 1.0 - np.sin(np.radians(phi)) if rules.k_rule == "jaky" else np.full_like(phi, rules.k_fixed)
-    return float(k) if k.ndim == 0 else k
-
-
-def beta_factor(phi: float | np.ndarray, rules: Rules | None = None) -> float | np.ndarray:
-    """Shaft factor beta = K tan(delta), delta = ``delta_over_phi`` x phi' (phi' in degrees).
-
-    f_s = beta sigma'_v (beta method; K by ``earth_pressure_k``). REFERENCES.md section 3.
-    """
-    rules = rules or Rules()
-    phi = np.asarray(phi, dtype=float)
-    beta = np.asarray(earth_pressure_k(phi, rules)) * np.tan(np.radians(rules.delta_over_phi * phi))
-    return float(beta) if beta.ndim == 0 else beta
-
-
-def n_q(phi: float | np.ndarray, rules: Rules | None = None) -> float | np.ndarray:
-    """Base bearing factor N_q for phi' (degrees) by the rules' ``nq_rule``.
-
-    "reissner": N_q = e^(pi tan phi') tan^2(45 + phi'/2) (Reissner 1924 / Prandtl, a closed
-    form; lower than the deep-pile charts of Berezantzev 1961 or Meyerhof 1976). "fixed":
-    ``nq_fixed``.
-    """
-    rules = rules or Rules()
-    phi = np.asarray(phi, dtype=float)
-    if rules.nq_rule == "fixed":
-        out = np.full_like(phi, rules.nq_fixed)
-    else:
-        t = np.radians(phi)
-        out = np.exp(math.pi * np.tan(t)) * np.tan(math.pi / 4 + t / 2) ** 2
-    return float(out) if out.ndim == 0 else out
+def clear_shared_profiles() -> None:
+    """Forget the shaft profiles kept between calls (``MEMO.profiles``; see design_core.memo)."""
+    MEMO.profiles.clear()
 
 
 def pile_area(diameter: float) -> float:
     """Cross-section area pi D^2 / 4 (m2) of a circular pile of diameter D (m)."""
     return math.pi * diameter * diameter / 4.0
-
-
-# --------------------------------------------------------------------------------------------
-# Results
-# --------------------------------------------------------------------------------------------
-
-@dataclass(frozen=True)
-class ShaftRow:
-    """Shaft resistance over one stretch of one layer.
-
-    ``from_level``/``to_level`` (m) bound the stretch; ``method`` is one of "alpha", "beta",
-    "report", "ignored", "excluded"; ``mean_fs`` the mean ultimate unit friction (kPa) and
-    ``force`` the ultimate shaft force (kN) of the stretch.
-    """
-
-    from_level: float
-    to_level: float
-    layer_index: int
-    material: str
-    method: str
-    mean_fs: float
-    force: float
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready dict."""
-        return asdict(self)
-
-
-@dataclass(frozen=True)
-class AxialResult:
-    """Compression resistance of one pile (kN) with its make-up.
-
-    ``shaft``, ``base``, ``ultimate`` (= shaft + base) and ``design`` in kN; ``base_pressure``
-    the ultimate unit base resistance q_b (kPa) from ``base_method`` in layer
-    ``base_layer_index``; ``layers`` the shaft rows top down (their forces sum to ``shaft``);
-    ``reason`` one line saying how ``design`` was found.
-    """
-
-    diameter: float
-    top_level: float
-    toe_level: float
-    pile_type: str
-    shaft: float
-    base: float
-    ultimate: float
-    design: float
-    base_pressure: float
-    base_method: str
-    base_layer_index: int
-    design_approach: str
-    layers: tuple[ShaftRow, ...]
-    reason: str
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready dict (rows as a list of dicts)."""
-        out = asdict(self)
-        out["layers"] = [row.to_dict() for row in self.layers]
-        return out
-
-
-@dataclass(frozen=True)
-class TensionResult:
-    """Uplift resistance of one pile (kN).
-
-    ``shaft_compression`` is the compression shaft Q_s, ``shaft_tension`` = ``tension_fraction``
-    x Q_s, ``weight`` the pile's effective weight W' (buoyant below water), ``ultimate`` =
-    shaft_tension + weight, and ``design`` the factored resistance (see ``tension_capacity``).
-    """
-
-    diameter: float
-    top_level: float
-    toe_level: float
-    pile_type: str
-    shaft_compression: float
-    tension_fraction: float
-    shaft_tension: float
-    weight: float
-    ultimate: float
-    design: float
-    design_approach: str
-    reason: str
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready dict."""
-        return asdict(self)
-
-
-@dataclass(frozen=True, eq=False)
-class CapacityCurve:
-    """Resistance against toe level for one pile (arrays in kN, read-only, toe levels in m).
-
-    ``toe_levels`` in the order given; ``shaft``, ``base``, ``ultimate`` and ``design`` match
-    them element by element.
-    """
-
-    toe_levels: np.ndarray
-    shaft: np.ndarray
-    base: np.ndarray
-    ultimate: np.ndarray
-    design: np.ndarray
-    diameter: float
-    top_level: float
-    pile_type: str
-    design_approach: str
-    reason: str = field(default="")
-
-    def to_dict(self) -> dict[str, Any]:
-        """Plain JSON-ready dict with the arrays as lists (for the tablet's cache)."""
-        out: dict[str, Any] = {}
-        for name in ("toe_levels", "shaft", "base", "ultimate", "design"):
-            out[name] = [float(x) for x in getattr(self, name)]
-        out.update(diameter=self.diameter, top_level=self.top_level, pile_type=self.pile_type,
-                   design_approach=self.design_approach, reason=self.reason)
-        return out
-
-    def design_at(self, level: float) -> float:
-        """Design resistance (kN) at ``level`` (m), linear between curve points.
-
-        ValueError when ``level`` lies outside the curve's toe levels.
-        """
-        level = number("level", level)
-        order = np.argsort(self.toe_levels)
-        z = self.toe_levels[order]
-        if not z[0] - LEVEL_TOL_M <= level <= z[-1] + LEVEL_TOL_M:
-            raise ValueError(f"level ({level:g} m) is outside the curve ({z[0]:g} to {z[-1]:g} m)")
-        return float(np.interp(level, z, self.design[order]))
 
 
 # --------------------------------------------------------------------------------------------
@@ -328,6 +119,24 @@ def _check_common(ground: Any, diameter: Any, top_level: Any, pile_type: Any,
     return diameter, top_level, rules
 
 
+GAUSS_POINTS_RANGE = (1, 8)    # Gauss-Legendre orders whose antiderivative matrix is exact to rounding
+MAX_STEP_RANGE_M = (1e-3, 100.0)
+
+
+def _check_integration(max_step: Any, gauss_points: Any) -> tuple[float, int]:
+    """The integration controls, refused outside their ranges (ValueError naming the field)."""
+    lo, hi = MAX_STEP_RANGE_M
+    if isinstance(max_step, bool) or not isinstance(max_step, (int, float, np.integer, np.floating)) \
+            or not math.isfinite(float(max_step)) or not lo <= float(max_step) <= hi:
+        raise ValueError(f"max_step must be a number from {lo:g} to {hi:g} m, got {max_step!r}")
+    g_lo, g_hi = GAUSS_POINTS_RANGE
+    if isinstance(gauss_points, bool) or not isinstance(gauss_points, (int, np.integer)) \
+            or not g_lo <= int(gauss_points) <= g_hi:
+        raise ValueError(f"gauss_points must be a whole number from {g_lo} to {g_hi}, got "
+                         f"{gauss_points!r}")
+    return float(max_step), int(gauss_points)
+
+
 def _check_toes(ground: GroundModel, top_level: float, toes: np.ndarray, name: str) -> None:
     """Every toe level finite, below ``top_level`` and within the ground model."""
     if np.any(~np.isfinite(toes)):
@@ -343,226 +152,6 @@ def _check_toes(ground: GroundModel, top_level: float, toes: np.ndarray, name: s
             f"{name} ({lo:g} m) must not be below the bottom of the ground model "
             f"({ground.bottom:g} m)")
 
-
-# --------------------------------------------------------------------------------------------
-# The shaft profile: a fixed grid of Gauss-Legendre pieces and the cumulative shaft force
-# --------------------------------------------------------------------------------------------
-
-@lru_cache(maxsize=8)
-def _gauss(n: int) -> tuple[np.ndarray, np.ndarray]:
-    """Gauss nodes on [0, 1] and the matrix from f at them to antiderivative coefficients.
-
-    With a = A f, the integral from 0 to s of the interpolating polynomial is
-    sum_j a_j s^(j+1); at s = 1 it is the Gauss-Legendre rule.
-    """
-    x, _ = np.polynomial.legendre.leggauss(n)
-    s = (x + 1.0) / 2.0
-    vander = s[:, None] ** np.arange(n)[None, :]
-    a = np.linalg.inv(vander) / (np.arange(n) + 1.0)[:, None]
-    s.setflags(write=False)
-    a.setflags(write=False)
-    return s, a
-
-
-class _Profile:
-    """Layer data as arrays, the sigma'_v profile and the shaft grid for one pile geometry."""
-
-    def __init__(self, ground: GroundModel, diameter: float, top_level: float, rules: Rules,
-                 deepest: float, max_step: float = MAX_STEP_M, gauss_points: int = GAUSS_POINTS):
-        self.ground, self.diameter, self.top_level, self.rules = ground, diameter, top_level, rules
-        layers = ground.layers
-        self.tops = np.array([ly.top for ly in layers])
-        self.bots = np.array([ly.bottom for ly in layers])
-        self.cu_top = np.array([ly.cu if ly.cu is not None else 0.0 for ly in layers])
-        self.cu_bot = np.array([ly.cu_bottom if ly.cu_bottom is not None else (ly.cu or 0.0)
-                                for ly in layers])
-        self.code = np.array([
-            _IGNORE if ly.material == "ignore" else _REPORT if ly.shaft_friction is not None
-            else _ALPHA if ly.material == "cohesive" else _BETA for ly in layers])
-        self.report_f = np.array([ly.shaft_friction or 0.0 for ly in layers])
-        self.beta = np.array([beta_factor(ly.phi, rules) if ly.phi is not None else 0.0
-                              for ly in layers])
-        self.base_code = np.array([
-            _BASE_NONE if ly.material == "ignore" else _BASE_REPORT if ly.base_pressure is not None
-            else _BASE_NC if ly.material == "cohesive" else _BASE_NQ for ly in layers])
-        self.base_report = np.array([ly.base_pressure or 0.0 for ly in layers])
-        self.nq = np.array([n_q(ly.phi, rules) if ly.phi is not None else 0.0 for ly in layers])
-        self.neg_bots = -self.bots
-        self.zs, self.ss = ground.stress_profile(rules.gamma_w)
-        zc = rules.critical_depth_diameters * diameter
-        self.z_crit = ground.top - zc if zc > 0.0 else -math.inf
-        self.excl_bottom = top_level - rules.exclusion_diameters * diameter
-        self.z_start = min(top_level, ground.top)
-        self._build_grid(deepest, max_step, gauss_points)
-
-    # -- point values -------------------------------------------------------------------------
-    def layer_index(self, z: np.ndarray) -> np.ndarray:
-        """Layer holding each level (at a boundary, the layer below)."""
-        idx = np.searchsorted(self.neg_bots, -z, side="right")
-        return np.minimum(idx, len(self.tops) - 1)
-
-    def sigma(self, z: np.ndarray) -> np.ndarray:
-        """sigma'_v (kPa), not capped."""
-        return np.interp(z, self.zs, self.ss)
-
-    def sigma_capped(self, z: np.ndarray) -> np.ndarray:
-        """sigma'_v (kPa) held at its value at the critical depth below it."""
-        return np.interp(np.maximum(z, self.z_crit), self.zs, self.ss)
-
-    def cu(self, z: np.ndarray, li: np.ndarray) -> np.ndarray:
-        """c_u (kPa) at each level in layer ``li`` (0 where the layer has none)."""
-        frac = np.clip((self.tops[li] - z) / (self.tops[li] - self.bots[li]), 0.0, 1.0)
-        return self.cu_top[li] + (self.cu_bot[li] - self.cu_top[li]) * frac
-
-    def friction(self, z: np.ndarray, li: np.ndarray) -> np.ndarray:
-        """Ultimate unit shaft friction f_s (kPa) at levels ``z`` in layers ``li``."""
-        code = self.code[li]
-        f = np.zeros_like(z)
-        m = code == _ALPHA
-        if m.any():
-            f[m] = _f_alpha(self.cu(z[m], li[m]), self.sigma(z[m]), self.rules)
-        m = code == _BETA
-        if m.any():
-            f[m] = self.beta[li[m]] * self.sigma_capped(z[m])
-        m = code == _REPORT
-        if m.any():
-            f[m] = self.report_f[li[m]]
-        f[(z > self.excl_bottom) | (z > self.z_start)] = 0.0
-        return f
-
-    def base_pressure(self, toes: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Ultimate base pressure q_b (kPa), its method code and layer index at each toe."""
-        li = self.layer_index(toes)
-        code = self.base_code[li]
-        q = np.zeros_like(toes)
-        m = code == _BASE_NC
-        if m.any():
-            q[m] = self.rules.nc * self.cu(toes[m], li[m])
-        m = code == _BASE_NQ
-        if m.any():
-            q[m] = np.minimum(self.nq[li[m]] * self.sigma_capped(toes[m]),
-                              self.rules.base_pressure_limit_kpa)
-        m = code == _BASE_REPORT
-        if m.any():
-            q[m] = self.base_report[li[m]]
-        return q, code, li
-
-    # -- the grid -----------------------------------------------------------------------------
-    def _build_grid(self, deepest: float, max_step: float, gauss_points: int) -> None:
-        """Cut [deepest stretch end, z_start] into smooth pieces; cumulative force at their tops."""
-        ground = self.ground
-        z0 = self.z_start
-        cand = [z0, ground.bottom, ground.water_level, self.excl_bottom, self.z_crit]
-        cand += list(self.tops[1:])
-        brk = np.unique(np.array([c for c in cand if ground.bottom <= c <= z0]))[::-1]
-        # keep only down to the first breakpoint at or below the deepest toe asked for
-        last = int(np.searchsorted(-brk, -deepest, side="left"))
-        brk = brk[: max(1, min(last, len(brk) - 1)) + 1]  # at least one stretch
-        # in alpha layers add the levels where psi meets a kink of the alpha rule
-        kinks = _alpha_kinks(self.rules)
-        extra = []
-        if kinks and np.any(self.code == _ALPHA):
-            a, b = brk[:-1], brk[1:]
-            li = self.layer_index(0.5 * (a + b))
-            sel = self.code[li] == _ALPHA
-            a, b, li = a[sel], b[sel], li[sel]
-            if a.size:
-                cu_a, cu_b = self.cu(a, li), self.cu(b, li)
-                s_a, s_b = self.sigma(a), self.sigma(b)
-                for psi in kinks:
-                    ga, gb = cu_a - psi * s_a, cu_b - psi * s_b
-                    cross = ga * gb < 0.0
-                    if cross.any():
-                        t = ga[cross] / (ga[cross] - gb[cross])
-                        extra.append(a[cross] - t * (a[cross] - b[cross]))
-        # f_s ~ sigma'_v^0.25 where sigma'_v = 0 (the ground surface) in an alpha layer: grade the
-        # pieces there geometrically so the quadrature keeps its accuracy next to the root
-        if (self.code[0] == _ALPHA and brk.size > 1 and self.sigma(np.array([z0]))[0] <= 0.0
-                and math.isfinite(max_step)):
-            first = min(max_step, brk[0] - brk[1])
-            extra.append(z0 - first * 4.0 ** -np.arange(1, 8))
-        if extra:
-            brk = np.unique(np.concatenate([brk] + extra))[::-1]
-        # drop stretches shorter than the level tolerance
-        keep = np.concatenate([[True], -np.diff(brk) > LEVEL_TOL_M * 1e-3])
-        brk = brk[keep]
-        seg_len = -np.diff(brk)
-        n_sub = np.maximum(1, np.ceil(seg_len / max_step - 1e-9).astype(int))
-        h = np.repeat(seg_len / n_sub, n_sub)
-        first = np.repeat(brk[:-1], n_sub)
-        k = np.arange(h.size) - np.repeat(np.cumsum(n_sub) - n_sub, n_sub)
-        tops = first - k * h
-        self.piece_top = tops
-        self.piece_bot = np.append(tops[1:], brk[-1])
-        self.piece_h = self.piece_top - self.piece_bot
-        s, amat = _gauss(gauss_points)
-        z = self.piece_top[:, None] - s[None, :] * self.piece_h[:, None]
-        li = np.repeat(self.layer_index(0.5 * (self.piece_top + self.piece_bot)), gauss_points)
-        f = self.friction(z.ravel(), li).reshape(z.shape)
-        self.coef = f @ amat.T  # integral from the piece top to s: sum_j coef_j s^(j+1) (kPa)
-        self.perim = math.pi * self.diameter
-        force = self.perim * self.piece_h * self.coef.sum(axis=1)
-        self.cum_top = np.concatenate([[0.0], np.cumsum(force)[:-1]])
-        self.neg_piece_bot = -self.piece_bot
-        for arr in (self.piece_top, self.piece_bot, self.piece_h, self.coef, self.cum_top,
-                    self.neg_piece_bot):
-            arr.setflags(write=False)  # a profile may be shared between callers (shaft_profile)
-
-    def shaft_to(self, levels: np.ndarray) -> np.ndarray:
-        """Ultimate shaft force (kN) from the top of the shaft down to each level."""
-        levels = np.minimum(levels, self.z_start)
-        i = np.minimum(np.searchsorted(self.neg_piece_bot, -levels, side="right"),
-                       self.piece_top.size - 1)
-        s = np.clip((self.piece_top[i] - levels) / self.piece_h[i], 0.0, 1.0)
-        c = self.coef[i]
-        acc = c[:, -1].copy()
-        for j in range(c.shape[1] - 2, -1, -1):  # Horner over the polynomial's few terms
-            acc = acc * s + c[:, j]
-        return self.cum_top[i] + self.perim * self.piece_h[i] * s * acc
-
-
-PROFILE_CACHE_SIZE = 128
-_PROFILES: OrderedDict = OrderedDict()
-_PROFILES_LOCK = threading.Lock()
-
-
-def shaft_profile(ground: GroundModel, diameter: float, top_level: float, rules: Rules,
-                  deepest: float, max_step: float = MAX_STEP_M,
-                  gauss_points: int = GAUSS_POINTS) -> _Profile:
-    """The shaft profile of one pile geometry, good for every toe down to ``deepest`` (m).
-
-    Calls with equal ground model, diameter (m), top level (m), rules and integration controls
-    share one profile (the last ``PROFILE_CACHE_SIZE`` kept) while it reaches deep enough, and
-    a deeper call builds it again: the pieces above any toe are the same wherever the grid
-    stops below it, so a shared profile gives the numbers of one built for the call. A
-    re-saved record, or piles of one diameter and cut-off in one ground model, then skip
-    rebuilding the grid. Inputs that cannot be compared (not hashable) get their own profile.
-    """
-    key = (ground, diameter, top_level, rules, max_step, gauss_points)
-    try:
-        hash(key)
-    except TypeError:  # an unhashable ground model or rules
-        return _Profile(ground, diameter, top_level, rules, deepest, max_step, gauss_points)
-    with _PROFILES_LOCK:
-        prof = _PROFILES.get(key)
-        # the grid drops stretches shorter than LEVEL_TOL_M * 1e-3, so its last piece may stop
-        # that little above the level asked for: deep enough all the same
-        if prof is not None and prof.piece_bot[-1] <= deepest + LEVEL_TOL_M * 1e-3:
-            _PROFILES.move_to_end(key)
-            return prof
-    prof = _Profile(ground, diameter, top_level, rules, deepest, max_step, gauss_points)
-    with _PROFILES_LOCK:
-        _PROFILES[key] = prof
-        _PROFILES.move_to_end(key)
-        while len(_PROFILES) > PROFILE_CACHE_SIZE:
-            _PROFILES.popitem(last=False)
-    return prof
-
-
-def clear_shared_profiles() -> None:
-    """Forget the profiles ``shaft_profile`` keeps (benchmarks of a first call; tests)."""
-    with _PROFILES_LOCK:
-        _PROFILES.clear()
 
 
 def _design(shaft: np.ndarray | float, base: np.ndarray | float, rules: Rules):
@@ -620,7 +209,7 @@ def axial_capacity(ground: GroundModel, diameter: float, top_level: float, toe_l
     pile_type:
         One of bored, cfa, driven, screw (same method for all; see the module docstring).
     rules:
-        The project's rules (defaults of PRODUCT.md section 6 when None).
+        The project's rules (the defaults of ``Rules`` when None).
     max_step, gauss_points:
         Integration controls (m, count); the defaults are converged.
 
@@ -629,6 +218,7 @@ def axial_capacity(ground: GroundModel, diameter: float, top_level: float, toe_l
     NaN or inf).
     """
     diameter, top_level, rules = _check_common(ground, diameter, top_level, pile_type, rules)
+    max_step, gauss_points = _check_integration(max_step, gauss_points)
     toe_level = number("toe_level", toe_level, -LEVEL_LIMIT_M, LEVEL_LIMIT_M)
     _check_toes(ground, top_level, np.array([toe_level]), "toe_level")
     toe_level = max(toe_level, ground.bottom)
@@ -679,7 +269,7 @@ def pile_weight(ground: GroundModel, diameter: float, head_level: float, toe_lev
 
     W' = A [gamma_c h_above + (gamma_c - gamma_w) h_below], A = pi D^2 / 4, split at the ground
     model's water level (buoyant below it). gamma_c = ``concrete_unit_weight`` (24 kN/m3,
-    common practice). REFERENCES.md section 5.
+    common practice).
     """
     rules = rules or Rules()
     length = head_level - toe_level
@@ -689,12 +279,53 @@ def pile_weight(ground: GroundModel, diameter: float, head_level: float, toe_lev
                                   + (rules.concrete_unit_weight - rules.gamma_w) * below)
 
 
+def tension_design(shaft: float, weight: float, rules: Rules) -> float:
+    """Design uplift resistance T_d (kN) from the compression shaft Q_s and the pile's effective
+    weight W' (kN): the one formula of design_core.
+
+    Working stress T_d = eta Q_s / ``fs_tension`` + ``pile_weight_factor`` W'; limit state
+    T_d = phi_g eta Q_s + ``pile_weight_factor`` W', eta = ``tension_fraction`` (common practice,
+    0.75; see ``tension_capacity``).
+    """
+    shaft_t = rules.tension_fraction * shaft
+    if rules.design_approach == "limit_state":
+        return rules.phi_g * shaft_t + rules.pile_weight_factor * weight
+    return shaft_t / rules.fs_tension + rules.pile_weight_factor * weight
+
+
+def _kn(x: float) -> str:
+    """A force for a reason: whole kN with thousands separated (1,587 kN)."""
+    return f"{x:,.0f} kN"
+
+
+def design_words(shaft: float, base: float, rules: Rules) -> str:
+    """How the design compression resistance was found from Q_s and Q_b (kN), with the
+    factors, so a reader can rebuild it: "min(Q_u 1,234 kN / 2.5, shaft 1,000 kN / 1.5 +
+    base 234 kN / 3)" or "0.55 x (shaft 1,000 kN + base 234 kN)"."""
+    if rules.design_approach == "limit_state":
+        return f"phi_g {rules.phi_g:g} x (shaft {_kn(shaft)} + base {_kn(base)})"
+    return (f"min(Q_u {_kn(shaft + base)} / {rules.fs_global:g}, shaft {_kn(shaft)} / "
+            f"{rules.fs_shaft:g} + base {_kn(base)} / {rules.fs_base:g})")
+
+
+def tension_words(shaft: float, weight: float, rules: Rules) -> str:
+    """How ``tension_design`` was found, with its factors: "0.75 x shaft 1,587 kN / FS 3 +
+    0.9 x pile weight 86 kN" (working stress) or "phi_g 0.55 x 0.75 x shaft 1,587 kN + 0.9 x
+    pile weight 86 kN" (limit state)."""
+    eta, w = rules.tension_fraction, rules.pile_weight_factor
+    if rules.design_approach == "limit_state":
+        part = f"phi_g {rules.phi_g:g} x {eta:g} x shaft {_kn(shaft)}"
+    else:
+        part = f"{eta:g} x shaft {_kn(shaft)} / FS {rules.fs_tension:g}"
+    return f"{part} + {w:g} x pile weight {_kn(weight)}"
+
+
 def tension_capacity(ground: GroundModel, diameter: float, top_level: float, toe_level: float,
                      pile_type: str = "bored", rules: Rules | None = None, *,
                      cutoff_level: float | None = None) -> TensionResult:
     """Uplift resistance of a single pile (kN).
 
-    T_ult = eta Q_s + W', eta = ``tension_fraction`` (0.75, common practice; REFERENCES.md s. 5),
+    T_ult = eta Q_s + W', eta = ``tension_fraction`` (0.75, common practice),
     Q_s the compression shaft of ``axial_capacity`` (same inputs), W' the pile's effective
     weight (``pile_weight``) from ``cutoff_level`` (default ``top_level``) to the toe.
 
@@ -712,11 +343,10 @@ def tension_capacity(ground: GroundModel, diameter: float, top_level: float, toe
     shaft_t = eta * comp.shaft
     weight = pile_weight(ground, comp.diameter, head, comp.toe_level, rules)
     ultimate = shaft_t + weight
+    design = tension_design(comp.shaft, weight, rules)
     if rules.design_approach == "limit_state":
-        design = rules.phi_g * shaft_t + rules.pile_weight_factor * weight
         how = f"limit state, phi_g {rules.phi_g:g}"
     else:
-        design = shaft_t / rules.fs_tension + rules.pile_weight_factor * weight
         how = f"working stress, FS {rules.fs_tension:g}"
     reason = (f"Design uplift {design:.0f} kN ({how}) from {eta:g} x shaft {comp.shaft:.0f} kN and "
               f"{rules.pile_weight_factor:g} x pile weight {weight:.0f} kN.")
@@ -735,6 +365,7 @@ def capacity_curve(ground: GroundModel, diameter: float, top_level: float, toe_l
     of finite levels below ``top_level`` and within the ground model, in any order.
     """
     diameter, top_level, rules = _check_common(ground, diameter, top_level, pile_type, rules)
+    max_step, gauss_points = _check_integration(max_step, gauss_points)
     try:
         toes = np.array(toe_levels, dtype=float)
     except (TypeError, ValueError) as exc:
@@ -755,15 +386,165 @@ def capacity_curve(ground: GroundModel, diameter: float, top_level: float, toe_l
     reason = (f"Design resistance against toe level for D {diameter:g} m from top level "
               f"{top_level:g} m ({_approach_text(rules)}).")
     return CapacityCurve(toes, shaft, base, ultimate, design, diameter, top_level, pile_type,
-                         rules.design_approach, reason)
+                         rules.design_approach, reason, layer_steps(ground, toes))
+
+
+def layer_steps(ground: GroundModel, levels) -> tuple[float, ...]:
+    """The layer boundaries (m, top down) within the span of ``levels``: where the base
+    resistance of a toe may jump (the base takes the layer holding the toe, at a boundary the
+    layer below)."""
+    levels = np.asarray(levels, dtype=float)
+    if levels.size == 0:
+        return ()
+    lo, hi = float(levels.min()), float(levels.max())
+    return tuple(float(layer.bottom) for layer in ground.layers[:-1]
+                 if lo - LEVEL_TOL_M <= layer.bottom <= hi + LEVEL_TOL_M)
+
+
+CURVE_STEP_M = 0.25        # spacing of the standard capacity-curve grid
+CURVE_MAX_POINTS = 400     # the grid is coarser than CURVE_STEP_M in a ground model deeper than this
+CURVE_BELOW_TOE_M = 5.0    # a pile's curve runs this far below the deepest of its toes
+STEP_ABOVE_M = 0.001       # the point just above a layer boundary on a curve
+
+
+def curve_levels(ground: GroundModel, top_level: float, step: float = CURVE_STEP_M,
+                 max_points: int = CURVE_MAX_POINTS) -> np.ndarray:
+    """The standard toe levels of a capacity curve (m, top down): from 0.1 m below the top
+    (``top_level`` or the ground surface, whichever is lower) down to the bottom of the ground
+    model, equally spaced at ``step`` (m) or wider when that would pass ``max_points``, and
+    every layer boundary in between both at the boundary and ``STEP_ABOVE_M`` above it (the
+    two sides of a jump in base resistance). Empty when the ground model leaves no room below
+    the top. The one curve grid of design_core."""
+    step = number("step", step, 0.01, 10.0)
+    start = min(top_level, ground.top) - 0.1
+    bottom = ground.bottom
+    if start <= bottom:
+        return np.zeros(0)
+    n = int(min(max_points, max(2, math.ceil((start - bottom) / step) + 1)))
+    grid = np.linspace(start, bottom, n)
+    # each layer boundary twice: at it (the layer below gives the base) and STEP_ABOVE_M above
+    # it (the layer above), so a reader of the curve sees the jump and never reads across it;
+    # grid points within a hair of either are left out
+    pairs = [(b, b + STEP_ABOVE_M) for b in (layer.bottom for layer in ground.layers[:-1])
+             if bottom < b < start - STEP_ABOVE_M]
+    extra = np.array([z for pair in pairs for z in pair])
+    if extra.size:
+        near = np.min(np.abs(grid[:, None] - extra[None, :]), axis=1) <= 1e-3 * STEP_ABOVE_M
+        grid = np.concatenate([grid[~near], extra])
+    return np.unique(grid)[::-1]
+
+
+_CURVE_ROWS = ("toe_levels", "shaft", "base", "ultimate", "design")
+
+
+def _rows(curve: CapacityCurve) -> np.ndarray:
+    """The curve's arrays as the rows of one matrix (levels, shaft, base, ultimate, design)."""
+    return np.vstack([np.asarray(getattr(curve, name)) for name in _CURVE_ROWS])
+
+
+def _points(key, ground, diameter, top_level, pile_type, rules, levels) -> np.ndarray:
+    """The rows of ``_rows`` at ``levels``: read from the points kept by
+    ``prime_capacity_points`` when all are there, else worked out (``capacity_curve``)."""
+    kept = MEMO.points.find(key)
+    if kept is not None:
+        at = [kept[0].get(t) for t in levels]
+        if all(i is not None for i in at):
+            return kept[1][:, at]
+    return _rows(capacity_curve(ground, diameter, top_level, levels, pile_type, rules))
+
+
+def prime_capacity_points(ground: GroundModel, diameter: float, top_level: float,
+                          pile_type: str, rules: Rules, toes, step: float = CURVE_STEP_M) -> None:
+    """Work out the capacity at many toe levels (m) of one pile geometry in one call and keep
+    them (``MEMO.points``) for ``pile_capacity_curve``: the same values as one by one, sooner
+    for a project's many piles."""
+    levels = sorted({max(float(t), ground.bottom) for t in toes
+                     if ground.bottom - LEVEL_TOL_M <= t < min(top_level, ground.top)})
+    key = (ground, float(diameter), float(top_level), pile_type, rules, float(step))
+    grid = curve_levels(ground, top_level, step)
+    if not levels or grid.size == 0:
+        return
+    # one evaluation for the grid and the toes; the grid part is kept as pile_capacity_curve
+    # would keep it (the same values: every level is worked out on its own)
+    every = np.concatenate([grid, levels])
+    curve = capacity_curve(ground, diameter, top_level, every, pile_type, rules)
+    rows = _rows(curve)
+    if MEMO.curves.find(key) is None:
+        MEMO.curves.put(key, _grid_entry(rows[:, :grid.size], curve))
+    index = {float(t): grid.size + i for i, t in enumerate(levels)}
+    MEMO.points.put(key, (index, rows))
+
+
+def _grid_entry(rows: np.ndarray, like: CapacityCurve) -> tuple:
+    """What ``MEMO.curves`` keeps for one geometry: the grid curve, its negated levels (list,
+    ascending), its levels (set) and its rows (``_rows``)."""
+    rows = np.array(rows)
+    rows.setflags(write=False)
+    curve = CapacityCurve(*rows, like.diameter, like.top_level, like.pile_type,
+                          like.design_approach, like.reason, like.steps)
+    levels = [float(t) for t in rows[0]]
+    return curve, [-t for t in levels], set(levels), rows
+
+
+def pile_capacity_curve(ground: GroundModel, diameter: float, top_level: float,
+                        pile_type: str = "bored", rules: Rules | None = None, toes=(),
+                        step: float = CURVE_STEP_M,
+                        below_toe_m: float | None = CURVE_BELOW_TOE_M) -> CapacityCurve:
+    """The capacity curve of one pile: the standard grid (``curve_levels``) and the ``toes``
+    given (m; those outside the ground model under the top are left out), top down.
+
+    With ``below_toe_m`` the grid stops that far (m) below the deepest toe given (or at the
+    bottom of the ground model); None runs it to the bottom. Every value is the one
+    ``capacity_curve`` gives at that level; the grid part is kept in ``MEMO.curves`` for the
+    next pile of the same geometry. ValueError when the ground model leaves no room.
+    """
+    rules = Rules() if rules is None else rules
+    key = (ground, float(diameter), float(top_level), pile_type, rules, float(step))
+
+    def make():
+        levels = curve_levels(ground, top_level, step)
+        if levels.size == 0:
+            raise ValueError("The ground model leaves no room for the pile below its cut-off")
+        curve = capacity_curve(ground, diameter, top_level, levels, pile_type, rules)
+        return _grid_entry(_rows(curve), curve)
+
+    grid, neg, known, mat = MEMO.curves.get(key, make)
+    upper = min(top_level, ground.top)
+    wanted = sorted({max(float(t), ground.bottom) for t in toes
+                     if ground.bottom - LEVEL_TOL_M <= t < upper}, reverse=True)
+    n = len(neg)
+    if wanted and below_toe_m is not None:   # the grid points at or above the limit
+        n = bisect.bisect_right(neg, -max(ground.bottom, wanted[-1] - below_toe_m))
+    extra = [t for t in wanted if t not in known]
+    if not extra and n == len(neg):
+        return grid
+    if extra:
+        more = _points(key, ground, diameter, top_level, pile_type, rules, extra)
+        pos = [bisect.bisect_left(neg, -t, 0, n) + k for k, t in enumerate(extra)]
+        total = n + len(extra)
+        mask = np.ones(total, dtype=bool)
+        mask[pos] = False
+        out = np.empty((len(_CURVE_ROWS), total))
+        out[:, mask] = mat[:, :n]
+        out[:, pos] = more
+    else:
+        out = mat[:, :n].copy()
+    out.setflags(write=False)
+    return CapacityCurve(*out, grid.diameter, grid.top_level, grid.pile_type,
+                         grid.design_approach, grid.reason, grid.steps)
 
 
 def required_toe_level(curve: CapacityCurve, load: float) -> float | None:
     """Highest toe level (m) whose design resistance is at least ``load`` (kN), or None.
 
-    Walking down the curve from its highest point, the first level where the design
-    resistance reaches ``load``, interpolated linearly between the two curve points that
-    straddle it. When the curve dips again deeper down (a weaker layer below), the pile must
+    Walking down the curve from its highest point, the first point k where the design
+    resistance reaches ``load``. Between that point and the one above it the level is
+    interpolated linearly only when no layer boundary (``curve.steps``, where the base
+    resistance jumps) lies between them; across a boundary the answer is point k itself: the
+    boundary when the curve carries it (``curve_levels`` puts a point at every boundary and one
+    just above it), else the deeper point, erring deep. Within one layer the chord differs from
+    the resistance by at most h^2 R''/8 over a step h (under a millimetre of level on the
+    0.25 m grid). When the curve dips again deeper down (a weaker layer below), the pile must
     still be checked at its own toe: use ``CapacityCurve.design_at`` or ``axial_capacity``.
     """
     if not isinstance(curve, CapacityCurve):
@@ -779,4 +560,6 @@ def required_toe_level(curve: CapacityCurve, load: float) -> float | None:
     if k == 0:
         return float(z[0])
     z0, z1, d0, d1 = z[k - 1], z[k], d[k - 1], d[k]
+    if any(z1 - LEVEL_TOL_M <= s < z0 for s in curve.steps):
+        return float(z1)
     return float(z0 + (load - d0) * (z1 - z0) / (d1 - d0))

@@ -4,7 +4,7 @@ Levels are reduced levels in metres, higher is up. Unit weights in kN/m3, streng
 pressures in kPa, angles in degrees.
 
 Vertical effective stress (Terzaghi's principle of effective stress, Terzaghi 1943,
-*Theoretical Soil Mechanics*; REFERENCES.md section 1) is measured from the top of the ground
+*Theoretical Soil Mechanics*) is measured from the top of the ground
 model::
 
     sigma'_v(z) = sum over the soil above z of gamma_i * h_i  -  gamma_w * max(0, z_w - z)
@@ -14,7 +14,7 @@ weight (gamma - gamma_w) below it. Between layer boundaries and the water level 
 in level, so it is held exactly as a piecewise-linear profile.
 
 Also here: ``ground_from_strata``, which rebuilds the ground under one pile from the strata the
-inspector logged at the rig (PRODUCT.md section 5).
+inspector logged at the rig.
 """
 
 from __future__ import annotations
@@ -37,6 +37,16 @@ CU_RANGE = (0.5, 5_000.0)  # kPa
 PHI_RANGE = (10.0, 50.0)  # degrees
 SHAFT_FRICTION_RANGE = (0.0, 5_000.0)  # kPa, ultimate
 BASE_PRESSURE_RANGE = (0.0, 100_000.0)  # kPa, ultimate
+
+
+def cu_linear(cu_top, cu_bottom, top, bottom, level):
+    """c_u (kPa) at ``level`` (m) in a layer from ``top`` to ``bottom`` (m) whose c_u runs
+    linearly from ``cu_top`` to ``cu_bottom``; levels outside the layer take the value at the
+    nearer end. Vectorised over every argument (numpy broadcasting). The one c_u interpolation
+    of design_core: the shaft, the base, the lateral springs and Broms all read c_u here."""
+    frac = (top - level) / (top - bottom)
+    frac = min(1.0, max(0.0, frac)) if isinstance(frac, float) else np.clip(frac, 0.0, 1.0)
+    return cu_top + (cu_bottom - cu_top) * frac
 
 
 @dataclass(frozen=True)
@@ -124,9 +134,9 @@ class Layer:
         if self.cu is None:
             return np.full_like(np.asarray(level, dtype=float), np.nan) if np.ndim(level) else math.nan
         cu_bot = self.cu if self.cu_bottom is None else self.cu_bottom
-        frac = np.clip((self.top - np.asarray(level, dtype=float)) / self.thickness, 0.0, 1.0)
-        out = self.cu + (cu_bot - self.cu) * frac
-        return float(out) if np.ndim(out) == 0 else out
+        if np.ndim(level) == 0:
+            return float(cu_linear(self.cu, cu_bot, self.top, self.bottom, float(level)))
+        return cu_linear(self.cu, cu_bot, self.top, self.bottom, np.asarray(level, dtype=float))
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready dict of the layer."""
@@ -224,7 +234,7 @@ class GroundModel:
         """Vertical effective stress sigma'_v (kPa) at ``level`` (m).
 
         sigma'_v = sum(gamma_i h_i) - gamma_w (z_w - z) below the water level z_w (Terzaghi;
-        REFERENCES.md section 1). Exact (linear interpolation of a piecewise-linear profile).
+        Terzaghi 1943). Exact (linear interpolation of a piecewise-linear profile).
         Above the ground surface it is 0; below the model it is extrapolated with the last
         layer's weight.
         """
@@ -297,7 +307,7 @@ def _borrow(layer: Layer, top: float, bottom: float) -> Layer:
 
 def ground_from_strata(ground: GroundModel, platform_level: float, strata: Sequence[StratumMet],
                        toe_level: float) -> tuple[GroundModel, list[Borrowed]]:
-    """The ground under one pile, rebuilt from the strata logged at the rig (PRODUCT.md s. 5).
+    """The ground under one pile, rebuilt from the strata logged at the rig.
 
     Each stratum met (depths in m below ``platform_level``, m) replaces the ground model over
     its levels, down to ``toe_level`` (m). It takes its unit weight and strength parameters

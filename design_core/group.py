@@ -9,7 +9,7 @@ sum P_i y_i = M_x + N y_load) gives, about the centroid of the piles as placed
 
 with I_xx = sum x'^2, I_yy = sum y'^2, I_xy = sum x'y', M_x' = M_x + N (y_load - y_c) and
 M_y' = M_y + N (x_load - x_c). The product term I_xy is kept because as-built groups are not
-symmetric. Source: REFERENCES.md section 11 (the general form; for a symmetric group it reduces
+symmetric. Source: the rigid-cap equations (the general form; for a symmetric group it reduces
 to N/n + M_x y/sum y^2 + M_y x/sum x^2, Bowles, Foundation Analysis and Design, pile caps).
 Sign: M_x adds compression towards +y, M_y towards +x; compression positive.
 """
@@ -44,6 +44,8 @@ def group_shares(xy, n: float, mx: float = 0.0, my: float = 0.0,
         if not math.isfinite(float(value)):
             raise ValueError(f"{name} must be a finite number, got {value!r}")
     lx, ly = (float(v) for v in load_point)
+    if not (math.isfinite(lx) and math.isfinite(ly)):
+        raise ValueError(f"load_point must be finite (easting, northing) in m, got {load_point!r}")
     k = pts.shape[0]
     centre = pts.mean(axis=0)
     dx = pts[:, 0] - centre[0]

@@ -70,6 +70,8 @@ class PileDesign:
         for name in ("compression", "tension", "shear", "moment"):
             number(name, getattr(self, name), 0.0, 1e6)
         number("n_bars", self.n_bars, 0, 200)
+        if float(self.n_bars) != int(self.n_bars):
+            raise ValueError(f"n_bars must be a whole number of bars (0 to 200), got {self.n_bars!r}")
         number("bar_mm", self.bar_mm, 0.0, 63.0)
         number("cage_length", self.cage_length, 0.0, 200.0)
         number("fc_mpa", self.fc_mpa, 10.0, 120.0)
@@ -230,3 +232,18 @@ class CapGroup:
             raise ValueError(f"cap {self.mark} has no piles")
         for name in ("n", "mx", "my", "hx", "hy"):
             number(name, getattr(self, name), -1e7, 1e7)
+        if self.load_point is not None:
+            if len(self.load_point) != 2:
+                raise ValueError(f"load_point must be (easting, northing) in m, got {self.load_point!r}")
+            number("load_point easting", self.load_point[0])
+            number("load_point northing", self.load_point[1])
+
+    @property
+    def load_xy(self) -> tuple[float, float]:
+        """Where the cap's loads act (easting, northing, m): ``load_point`` when given, else the
+        centroid of the piles' design positions."""
+        if self.load_point is not None:
+            return self.load_point
+        k = len(self.piles)
+        return (sum(p.design_xy[0] for p in self.piles) / k,
+                sum(p.design_xy[1] for p in self.piles) / k)

@@ -3,7 +3,7 @@
 ``broms_lateral``: Broms, B. B. (1964a) "Lateral resistance of piles in cohesive soils", J. Soil
 Mech. Found. Div. ASCE 90(SM2) 27-63, and (1964b) "...in cohesionless soils", 90(SM3) 123-156;
 equations as restated in Reese & Van Impe, Single Piles and Pile Groups under Lateral Loading,
-Appendix A, and REFERENCES.md section 6.
+Appendix A.
 
 * Cohesive soil: no resistance over the top 1.5 D, then 9 c_u D per metre.
 * Cohesionless soil: 3 K_p gamma' z D per metre, K_p = tan^2(45 + phi/2).
@@ -12,14 +12,13 @@ Each pile fails by the weakest rigid-plastic mechanism: "short" (the soil fails 
 length, the section does not yield) or "long" (a plastic hinge forms where the moment peaks; a
 fixed head adds a hinge at the head). For a fixed head the intermediate mechanism (hinge at the
 head only) is reported as "long" with ``hinges`` = 1. The intermediate equations used here are
-written from statics so that they meet the short and the long mechanisms at their boundaries;
-REFERENCES.md section 6 lists them from memory with the opposite sign on one term (flagged
-there as unverified).
+written from statics so that they meet the short and the long mechanisms at their boundaries.
+(A restatement from memory with the opposite sign on one term was not used.)
 
 ``winkler_pile``: E I y'''' + k(z) y = 0 on 0 <= z <= L (z down from the head), solved by central
 finite differences with two ghost nodes at each end (second-order accurate). Head: free
 (E I y'' = M, E I y''' = H) or fixed (y' = 0, E I y''' = H); toe free (y'' = y''' = 0). The
-closed form for a long pile on uniform springs is Hetenyi (1946), REFERENCES.md section 7.
+closed form for a long pile on uniform springs is Hetenyi (1946), Beams on Elastic Foundation.
 Sign: H, M and the deflection are positive in the same sense; the bending moment is E I y''.
 """
 

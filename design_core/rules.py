@@ -1,4 +1,4 @@
-"""The project's check rules: every default factor, limit and table of PRODUCT.md section 6.
+"""The project's check rules: every default factor, limit and table of the recheck.
 
 Mechanics (the formulas) live in the other modules of ``design_core``; every number an engineer
 might change lives here, as data, with the unit and the source written beside it. A project stores
@@ -89,7 +89,7 @@ class RuleDoc:
 
 @dataclass(frozen=True)
 class Rules:
-    """Every default of the recheck, each with its unit and source (PRODUCT.md section 6).
+    """Every default of the recheck, each with its unit and source.
 
     Construct with keyword arguments to change any default; values out of range raise
     ``ValueError`` naming the field, the value and the allowed range.
@@ -213,6 +213,10 @@ class Rules:
         0.65, "Strength reduction factor on the nominal section", "",
         "ACI 318-19 Table 21.2.2, compression-controlled tied section (from memory).",
         0.3, 1.0)
+    axial_cap_factor: float = _rule(
+        0.80, "Cap on nominal axial strength, as a fraction of P_0", "",
+        "ACI 318-19 Table 22.4.2.1: P_n,max = 0.80 P_0 for tied members (0.85 with spirals); "
+        "phi P_n,max = 0.80 phi P_0. Set another code's equivalent here.", 0.5, 1.0)
     ei_cracked_factor: float = _rule(
         0.7, "Effective EI as a fraction of gross (lateral)", "",
         "ACI 318-19 Table 6.6.3.1.1(a), columns 0.70 I_g (from memory).", 0.2, 1.0)

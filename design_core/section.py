@@ -14,7 +14,8 @@ P_0 = 0.85 f'_c (A_g - A_st) + f_y A_st (ACI 318-19 22.4.2.2) with no 0.80/0.85 
 (Table 22.4.2.1): values are nominal and unfactored; the rules apply phi.
 
 Bars are equally spaced on a circle of radius D/2 - cover - bar/2, one bar at the extreme
-compression fibre (REFERENCES.md section 8 uses the same layout).
+compression fibre (the usual layout of worked examples; ``section_interaction_least`` turns
+the ring to its least favourable orientation).
 
 Units: diameter m, cover_mm and bar_mm mm, fc_mpa, fy_mpa, es_mpa MPa; results kN and kNm,
 compression positive.
@@ -95,32 +96,36 @@ def _validate(diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa) -> Non
             raise ValueError(f"{name} must be a number, got {value!r}")
         if not math.isfinite(value) or value < lo or value > hi:
             raise ValueError(f"{name} must be between {lo:g} and {hi:g}, got {value!r}")
+    if float(n_bars) != int(n_bars):
+        raise ValueError(f"n_bars must be a whole number of bars (0 to 500), got {n_bars!r}")
     if n_bars and (cover_mm + bar_mm) * 2 >= diameter * 1000.0:
         raise ValueError(f"cover_mm + bar_mm ({cover_mm + bar_mm:g} mm) leaves no core in a "
                          f"{diameter * 1000:g} mm pile")
 
 
-def _bars(diameter, cover_mm, n_bars, bar_mm):
-    """Bar depths from the compression face (mm) and areas (mm2)."""
+def _bars(diameter, cover_mm, n_bars, bar_mm, rotation_deg=0.0):
+    """Bar depths from the compression face (mm) and areas (mm2); ``rotation_deg`` turns the
+    ring of bars from one bar at the extreme compression fibre."""
     r = diameter * 500.0
     if n_bars <= 0 or bar_mm <= 0:
         return np.zeros(0), np.zeros(0), r
     rs = r - cover_mm - bar_mm / 2.0
-    angles = 2.0 * math.pi * np.arange(n_bars) / n_bars
+    angles = 2.0 * math.pi * np.arange(n_bars) / n_bars + math.radians(rotation_deg)
     y = rs * np.cos(angles)                      # from the centre, + towards compression
     area = np.full(n_bars, math.pi * bar_mm ** 2 / 4.0)
     return r - y, area, r
 
 
 def section_forces(c_mm, diameter: float, cover_mm: float, n_bars: int, bar_mm: float,
-                   fc_mpa: float, fy_mpa: float, es_mpa: float = 200_000.0):
+                   fc_mpa: float, fy_mpa: float, es_mpa: float = 200_000.0,
+                   rotation_deg: float = 0.0):
     """Nominal (N kN, M kNm) for neutral-axis depth(s) ``c_mm`` (mm from the compression face).
 
     Vectorised over ``c_mm``; strain compatibility with eps_cu = 0.003 at the compression face,
     stress block a = beta_1 c capped at D (ACI 318-19 22.2). Returns two arrays.
     """
     c = np.atleast_1d(np.asarray(c_mm, dtype=float))
-    d_bar, a_bar, r = _bars(diameter, cover_mm, n_bars, bar_mm)
+    d_bar, a_bar, r = _bars(diameter, cover_mm, n_bars, bar_mm, rotation_deg)
     b1 = beta_1(fc_mpa)
     a = np.minimum(b1 * c, 2.0 * r)
     theta = 2.0 * np.arccos(np.clip((r - a) / r, -1.0, 1.0))
@@ -152,19 +157,21 @@ def _unit_depths(points: int) -> np.ndarray:
 
 def section_interaction(diameter: float, cover_mm: float, n_bars: int, bar_mm: float,
                         fc_mpa: float, fy_mpa: float, es_mpa: float = 200_000.0,
-                        points: int = 240) -> InteractionCurve:
+                        points: int = 240, rotation_deg: float = 0.0) -> InteractionCurve:
     """Nominal N-M interaction curve of a circular RC pile section (ACI 318-19 22.2, 22.4.2.2).
 
     diameter (m); cover_mm clear cover to the bars (mm); n_bars bars of bar_mm (mm) equally
     spaced on a circle at cover + bar/2 from the face; fc_mpa f'_c, fy_mpa f_y, es_mpa E_s (MPa).
     ``points`` neutral-axis depths are traced, denser near the face, from c -> 0 (pure tension)
-    to the squash load. Raises ValueError naming the field for out-of-range input.
+    to the squash load. ``rotation_deg`` turns the ring of bars from one bar at the extreme
+    compression fibre. Raises ValueError naming the field for out-of-range input.
     """
     _validate(diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa)
     d_mm = diameter * 1000.0
     # c from 0.2 % of D to 20 D, geometric, so both ends of the curve are traced closely.
     c = d_mm * _unit_depths(points)
-    n, m = section_forces(c, diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa)
+    n, m = section_forces(c, diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa,
+                          rotation_deg)
     a_st = n_bars * math.pi * bar_mm ** 2 / 4.0 if n_bars and bar_mm else 0.0
     a_g = math.pi * d_mm ** 2 / 4.0
     squash = (0.85 * fc_mpa * (a_g - a_st) + fy_mpa * a_st) / 1000.0
@@ -180,3 +187,30 @@ def section_interaction(diameter: float, cover_mm: float, n_bars: int, bar_mm: f
                             tension=float(tension), diameter=float(diameter),
                             cover_mm=float(cover_mm), n_bars=int(n_bars), bar_mm=float(bar_mm),
                             fc_mpa=float(fc_mpa), fy_mpa=float(fy_mpa))
+
+
+LEAST_ORIENTATIONS = 3   # ring turns sampled over half the bar spacing, both ends included
+
+
+def section_interaction_least(diameter: float, cover_mm: float, n_bars: int, bar_mm: float,
+                              fc_mpa: float, fy_mpa: float,
+                              es_mpa: float = 200_000.0) -> InteractionCurve:
+    """The interaction curve of the bars in their least favourable orientation: at each N the
+    smallest nominal moment over the ring turned 0, 1/4 and 1/2 of the bar spacing (the ring
+    repeats every spacing and is symmetric, so these span it: one bar at the extreme fibre, a
+    pair straddling the axis, and between). With few bars the orientation matters (the bending
+    direction of a pile is not known beforehand); with many the curves coincide. Same units and
+    checks as ``section_interaction``; squash and tension loads do not depend on orientation.
+    """
+    base = section_interaction(diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa)
+    if n_bars < 2 or bar_mm <= 0:
+        return base
+    spacing = 360.0 / n_bars
+    m = base.m.copy()
+    for k in range(1, LEAST_ORIENTATIONS):
+        turned = section_interaction(diameter, cover_mm, n_bars, bar_mm, fc_mpa, fy_mpa, es_mpa,
+                                     rotation_deg=0.5 * spacing * k / (LEAST_ORIENTATIONS - 1))
+        m = np.minimum(m, np.interp(base.n, turned.n, turned.m))
+    return InteractionCurve(n=base.n, m=m, c=base.c, squash=base.squash, tension=base.tension,
+                            diameter=base.diameter, cover_mm=base.cover_mm, n_bars=base.n_bars,
+                            bar_mm=base.bar_mm, fc_mpa=base.fc_mpa, fy_mpa=base.fy_mpa)

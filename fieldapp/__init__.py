@@ -33,7 +33,8 @@ ROOT = Path(__file__).resolve().parent.parent
 csrf = CSRFProtect()
 
 # Every blueprint of the app, in registration order (modules under fieldapp/).
-BLUEPRINTS = ("piles", "ground", "rules", "rig", "review", "record.views", "api", "offline", "openapi")
+BLUEPRINTS = ("piles", "ground", "rules", "rig", "review", "record.views", "api", "offline", "openapi",
+              "imports")
 
 CAUTION = (
     "Caution: Toeline's checks aid a competent engineer; they do not replace the engineer of "

@@ -30,6 +30,8 @@ from fieldapp.queries import audit
 MANIFEST = "manifest.json"
 DB_NAME = "toeline.sqlite3"
 ANCHOR_DIR = "anchors"
+# Folders of evidence kept by content hash beside the database: photos, AGS4 files, layout drawings.
+EVIDENCE_DIRS = ("photos", "ags", "layouts")
 
 
 def sha256_file(path: Path) -> str:
@@ -64,12 +66,13 @@ def make_backup(data_dir: Path, dest: Path) -> dict:
     finally:
         dst.close()
         src.close()
-    photos = data_dir / "photos"
-    if photos.is_dir():
-        # Photo files appear through ".tmp-*" files renamed into place (fieldapp.photos); an
-        # upload during the backup would make such a file vanish mid-copy. Finished files are
-        # never removed, and the database was copied first, so its photos are all here.
-        shutil.copytree(photos, dest / "photos", ignore=shutil.ignore_patterns(".tmp-*"))
+    for folder in EVIDENCE_DIRS:
+        # Evidence files appear through ".tmp-*" files renamed into place (fieldapp.photos,
+        # fieldapp.ags_io); an upload during the backup would make such a file vanish mid-copy.
+        # Finished files are never removed, and the database was copied first, so every file
+        # it names is here.
+        if (data_dir / folder).is_dir():
+            shutil.copytree(data_dir / folder, dest / folder, ignore=shutil.ignore_patterns(".tmp-*"))
     files = {}
     for path in sorted(dest.rglob("*")):
         if path.is_file() and path.name != MANIFEST:
@@ -279,11 +282,13 @@ def _restore_locked(src: Path, data_dir: Path, manifest: dict) -> None:
     if (data_dir / ANCHOR_DIR).is_dir():  # they anchor the database moved aside, not this one
         (data_dir / ANCHOR_DIR).rename(data_dir / f"{ANCHOR_DIR}.before-restore-{stamp}")
     os.replace(tmp, target)
-    photos_src = src / "photos"
-    if photos_src.is_dir():
-        for path in photos_src.rglob("*"):
+    for folder in EVIDENCE_DIRS:
+        folder_src = src / folder
+        if not folder_src.is_dir():
+            continue
+        for path in folder_src.rglob("*"):
             if path.is_file() and not path.is_symlink():
-                out = data_dir / "photos" / path.relative_to(photos_src)
+                out = data_dir / folder / path.relative_to(folder_src)
                 out.parent.mkdir(parents=True, exist_ok=True)
                 if not out.exists():
                     shutil.copy2(path, out)

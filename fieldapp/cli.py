@@ -248,7 +248,8 @@ def _load_extra_commands() -> None:
     """Commands that live beside their area (import/export, audit, record, backup)."""
     import importlib
 
-    for name in ("fieldapp.schedule_io", "fieldapp.review_cli", "fieldapp.record.cli", "fieldapp.backup"):
+    for name in ("fieldapp.schedule_io", "fieldapp.review_cli", "fieldapp.record.cli", "fieldapp.backup",
+                 "fieldapp.import_cli"):
         try:
             module = importlib.import_module(name)
         except ModuleNotFoundError as exc:

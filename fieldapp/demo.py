@@ -19,7 +19,7 @@ import numpy as np
 
 from design_core.axial import capacity_curve, required_toe_level
 from design_core.group import group_shares
-from fieldapp import db, demo_records
+from fieldapp import db, demo_ags, demo_records
 from fieldapp.pile_inputs import load_ground, store_ground_model
 from fieldapp.queries import audit, caps, piles, projects, users
 
@@ -191,7 +191,7 @@ def build(app) -> int:
             users.add_member(conn, pid, uid)
         rules = projects.current_rules(conn, pid).rules
         gm_ids, gm_design = [], []
-        for name, description, water, layers in GROUND_MODELS:
+        for name, description, water, layers in demo_ags.ground_models():
             gm_id = store_ground_model(conn, pid, name, water, layers, description)
             gm_ids.append(gm_id)
             gm_design.append(load_ground(conn, gm_id))
@@ -206,5 +206,6 @@ def build(app) -> int:
                 count += 1
         audit.append(conn, pid, "demo", "demo project created", PROJECT["name"],
                      {"piles": count, "caps": len(CAPS), "ground_models": len(gm_ids)})
+        demo_ags.load(conn, pid, app.config["DATA_DIR"])  # the invented ground investigation
     demo_records.add_records(app, pid, LOGINS[2][0])  # as-built records and photos through the save path
     return pid

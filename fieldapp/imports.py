@@ -20,6 +20,7 @@ from flask import Blueprint, Response, abort, current_app, flash, g, redirect, r
 from design_core.inputs import MATERIALS
 from fieldapp import ags_io, db, layout_io
 from fieldapp.auth import engineer_required, project_or_404
+from fieldapp.pile_inputs import store_ground_model
 from fieldapp.queries import audit, ground
 from fieldapp.queries import locations as loc_q
 from fieldapp.queries import piles as piles_q
@@ -174,7 +175,7 @@ def model_from_location(project_id, location_id):
             name = (form.get("name") or "").strip()
             try:
                 with db.write(conn):
-                    model_id = ground.save_model(conn, project_id, name, water_level, values,
+                    model_id = store_ground_model(conn, project_id, name, water_level, values,
                                                  f"Made from {location.loca_id} of the AGS4 data by the engineer.")
                     loc_q.link_model(conn, location.id, model_id)
                     audit.append(conn, project_id, _actor(), "ground model made from AGS4 location", name, {

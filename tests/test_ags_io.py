@@ -309,7 +309,7 @@ def test_upload_screen_lists_problems_and_then_stores_the_file(app, client, web,
                            content_type="multipart/form-data")
     page = response.get_data(as_text=True)
     assert response.status_code == 422 and "GEOL_BASE" in page and "Nothing imported" in page
-    assert "Caution." in page
+    assert "Caution:" in page
     assert stored(app, project) == {}
     response = client.post(url, data={"csrf_token": web.token(), "file": (io.BytesIO(ags_file()), "gi.ags")},
                            content_type="multipart/form-data")

@@ -202,7 +202,7 @@ def test_upload_preview_then_apply_on_the_screen(app, client, auth, people, proj
         "file": (io.BytesIO(dxf(**LAYOUT)), "site.dxf")}, content_type="multipart/form-data")
     page = response.get_data(as_text=True)
     assert response.status_code == 200, page
-    assert "by 50 mm" in page and "Caution." in page and "Apply the whole drawing" in page
+    assert "by 50 mm" in page and "Caution:" in page and "Apply the whole drawing" in page
     assert schedule(app, project) == before
     import re
     hidden = dict(re.findall(r'name="(sha256|fingerprint|filename|layer|units|text_distance_m)" value="([^"]*)"', page))

@@ -18,7 +18,9 @@ from design_core import CHECK_CODES, MEETS_DESIGN, NEEDS_ENGINEER, Rules
 from design_core.axial import tension_capacity
 from design_core.ground import GroundModel, Layer
 from design_core.inputs import AsBuilt, CapGroup, CapPile, Delivery, PileDesign, StratumMet
-from design_core.recheck import ProjectItem, _pile, _tension_design, recheck, recheck_project
+from design_core.asbuilt import as_built_pile as _pile
+from design_core.checks.capacity import tension_resistance as _tension_design
+from design_core.verdict import ProjectItem, recheck, recheck_project
 
 GROUND = GroundModel((Layer(0.0, -2.0, "ignore", 18.0),
                       Layer(-2.0, -12.0, "cohesive", 19.0, cu=80.0, cu_bottom=160.0),
@@ -63,7 +65,7 @@ FAIL_ALONE = [
     ("axial_compression", {"compression": 900.0}, {}, {}),
     ("axial_tension", {}, {"strata": (S(2.0, 6.5, "ignore"),)}, {}),    # fill met where clay was
     ("structural", {"moment": 150.0}, {}, {}),
-    ("lateral", {"shear": 200.0}, {}, {}),
+    ("lateral", {"shear": 200.0, "head": "free"}, {}, {}),   # fixed: the head moment fails the section too
     ("durability_cover", {}, {"cover_mm": 70.0}, {}),
     ("durability_grade", {}, {"concrete_mpa": 22.0}, {}),
     ("position", {}, {"easting": 500.08}, {}),
@@ -237,7 +239,7 @@ def test_factored_loads_are_brought_back_to_working_for_working_stress():
 
 
 def test_structural_moment_is_at_least_the_minimum_eccentricity():
-    design = replace(DESIGN, tension=0.0, moment=0.0)
+    design = replace(DESIGN, tension=0.0, moment=0.0, shear=0.0)   # no fixed-head moment
     v = recheck(design, ASBUILT, GROUND)
     n, m = v.details["load_point"]
     dev = np.hypot(20.0, 10.0) / 1000.0
@@ -378,22 +380,19 @@ def _verdict_dict(v):
 ])
 def test_analyses_kept_between_calls_follow_every_input(record_change):
     # The section curve, shaft profile and Winkler solve are kept between rechecks for equal
-    # inputs (design_core.recheck._shared_*, design_core.axial.shaft_profile). A changed input
+    # inputs (design_core.memo.MEMO). A changed input
     # must give the result of a recheck made from nothing, and the kept results cannot be edited.
-    import importlib
-
-    from design_core import axial
-    rc = importlib.import_module("design_core.recheck")  # the package exports a function of its name
+    from design_core.memo import MEMO
 
     def clear():
-        rc.clear_shared_analyses()
-        assert not axial._PROFILES and rc._winkler_solve.cache_info().currsize == 0
+        MEMO.clear()
+        assert not MEMO.profiles and len(MEMO.winkler) == 0
 
     clear()
     first = recheck(DESIGN, ASBUILT, GROUND, group=CAP)
     changed = replace(ASBUILT, **record_change)
     warm = recheck(DESIGN, changed, GROUND, group=CAP)
-    assert rc._shared_section.cache_info().currsize >= 1
+    assert len(MEMO.sections) >= 1
     clear()
     cold = recheck(DESIGN, changed, GROUND, group=CAP)
     assert _verdict_dict(warm) == _verdict_dict(cold)
@@ -406,7 +405,7 @@ def test_analyses_kept_between_calls_follow_every_input(record_change):
 # ---- lateral springs follow the layers -------------------------------------------------------
 
 def _lateral_pile(ground, depth=16.1, head="free"):
-    from design_core.recheck import _lateral_geometry
+    from design_core.lateral_springs import lateral_geometry as _lateral_geometry
     pile = _pile(replace(DESIGN, head=head), replace(ASBUILT, measured_depth=depth), ground, Rules())
     return pile, _lateral_geometry(pile)
 
@@ -414,7 +413,7 @@ def _lateral_pile(ground, depth=16.1, head="free"):
 def test_springs_in_one_uniform_clay_are_67_cu_from_the_top_of_the_clay():
     # Davisson (1970) k = 67 c_u per metre of pile (rule spring_per_cu; from memory); fill above the clay is
     # free length. One uniform layer gives one segment of constant k.
-    from design_core.recheck import _spring_segments
+    from design_core.lateral_springs import spring_segments as _spring_segments
     ground = GroundModel((Layer(0.0, -2.0, "ignore", 18.0),
                           Layer(-2.0, -30.0, "cohesive", 19.0, cu=80.0)), -1.5)
     pile, geometry = _lateral_pile(ground)
@@ -427,7 +426,7 @@ def test_springs_follow_each_layer_down_to_the_toe():
     # Clay with c_u rising 80 -> 160 kPa from -2 to -12 m, then sand: k = 67 c_u(z) in the clay,
     # n_h x depth below the top of the clay in the sand (Terzaghi 1955, from memory), the sand below the
     # boundary (at a boundary the layer below, as everywhere in design_core).
-    from design_core.recheck import _spring_segments, _winkler_case
+    from design_core.lateral_springs import spring_segments as _spring_segments, winkler_case as _winkler_case
     pile, geometry = _lateral_pile(GROUND)
     _, z_top, free, embedded = geometry
     rules = Rules()

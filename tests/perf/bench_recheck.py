@@ -19,7 +19,8 @@ from datetime import datetime, timedelta
 
 from design_core import GroundModel, Layer, Rules
 from design_core.inputs import AsBuilt, CapGroup, CapPile, Delivery, PileDesign, StratumMet
-from design_core.recheck import ProjectItem, clear_shared_analyses, recheck, recheck_project
+from design_core.memo import MEMO
+from design_core.verdict import ProjectItem, recheck, recheck_project
 
 T0 = datetime(2026, 3, 2, 7, 0)
 DIAMETERS = (0.45, 0.6, 0.75, 0.9)
@@ -102,7 +103,7 @@ def _cold(fn):
     """(wall s, CPU s) of one call with nothing kept from earlier calls (design_core keeps
     shaft profiles, section curves and Winkler solves for equal inputs; forgetting them takes
     place before the clock starts)."""
-    clear_shared_analyses()
+    MEMO.clear()
     return _time(fn)
 
 

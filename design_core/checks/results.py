@@ -28,6 +28,29 @@ CHECK_CODES = (
     "cage_length",
 )
 
+# The checks whose utilisation is demand over capacity: they rank the piles (worst_utilisation).
+CAPACITY_CODES = ("axial_compression", "axial_tension", "structural", "lateral", "group_share")
+
+# Each check in plain words, for screens and the PDF (the codes stay in the API, CSV and audit).
+CHECK_LABELS = {
+    "axial_compression": "Compression resistance",
+    "axial_tension": "Uplift resistance",
+    "structural": "Pile section strength",
+    "lateral": "Lateral load and head deflection",
+    "group_share": "Share of the cap load",
+    "durability_cover": "Cover for exposure class",
+    "durability_grade": "Concrete grade for exposure class",
+    "position": "Position at cut-off",
+    "inclination": "Inclination",
+    "cutoff_level": "Cut-off level",
+    "toe_level": "Toe level",
+    "diameter": "Diameter",
+    "base_debris": "Base debris",
+    "concrete_volume": "Concrete volume",
+    "concrete_time": "Time from batching to discharge",
+    "cage_length": "Cage length",
+}
+
 MEETS_DESIGN = "meets design"
 NEEDS_ENGINEER = "needs engineer"
 
@@ -111,9 +134,18 @@ class PileVerdict:
 
     @property
     def worst_utilisation(self) -> float:
-        """Largest utilisation over all checks made (0 when none was made)."""
+        """The pile's ranking utilisation: the largest utilisation over the capacity and member
+        checks made (``CAPACITY_CODES``: demand over capacity) and over every short check of
+        any kind; 0 when none counts.
+
+        The rule: an ok tolerance, durability or concrete check does not rank the pile (its
+        utilisation is a share of an allowance, not of a capacity, and a tolerance met exactly
+        is 0, never "1.00"); a short one always does, so a short pile never ranks below a pile
+        that meets design. Infinite utilisations (no capacity at all) are left out.
+        """
         values = [c.utilisation for c in self.checks if c.utilisation is not None
-                  and math.isfinite(c.utilisation)]
+                  and math.isfinite(c.utilisation)
+                  and (c.code in CAPACITY_CODES or c.ok is False)]
         return max(values, default=0.0)
 
     def short_first(self) -> list[Check]:
