@@ -76,6 +76,13 @@ def test_plain_words_of_the_checks_agree_between_readme_and_docs():
     assert {c: docs[c] for c in CHECK_CODES} == {c: readme[c] for c in CHECK_CODES}
 
 
+def test_the_plain_words_of_the_checks_are_the_labels_the_screens_show():
+    from design_core import CHECK_LABELS
+
+    docs = _named_rows(_doc("checks.md"))
+    assert {c: docs[c] for c in CHECK_CODES} == {c: CHECK_LABELS.get(c) for c in CHECK_CODES}
+
+
 def test_docs_name_no_check_code_that_does_not_exist():
     rows = _named_rows(_doc("checks.md"))
     assert sorted(set(rows) - set(CHECK_CODES)) == []
@@ -205,11 +212,6 @@ def test_readme_docs_and_tests_point_at_no_document_outside_the_repository():
     assert _mentions(paths) == []
 
 
-# lead removes the xfail at merge: on this branch design_core/, fieldapp/, static/, templates/
-# and DEVELOPERS.md still point at the outside documents; the lead replaces those references
-# when merging, and then this test passes (strict: an unexpected pass fails, as a reminder).
-@pytest.mark.xfail(strict=True, reason="references in design_core/, fieldapp/, static/, templates/ "
-                                       "and DEVELOPERS.md are replaced by the lead at merge")
 def test_no_tracked_file_points_at_a_document_outside_the_repository():
     assert _mentions(_tracked_files()) == []
 
