@@ -22,10 +22,7 @@ from design_core.lateral import (
 )
 from design_core.group import across_moment, group_shares
 from design_core.memo import MEMO
-# Temporary, removed at merge: load the old module name first, so that the function bound below
-# (not the shim module design_core/recheck.py) is what ``design_core.recheck`` names.
-import design_core.recheck  # noqa: E402,F401
-from design_core.verdict import (  # noqa: E402
+from design_core.verdict import (
     ProjectItem, RequiredToe, recheck, recheck_project, required_toe,
 )
 

@@ -31,6 +31,7 @@ import math
 from dataclasses import asdict, dataclass
 from typing import Any, Iterable, Mapping
 
+from design_core.loads import axial_demand
 from design_core.checks import Check
 from design_core.rules import Rules
 from design_core.validate import number
@@ -427,17 +428,6 @@ def gates_resistance(record: DrivingRecord, rules: Rules | None = None) -> Gates
     text = (f"FHWA-modified Gates R_u {r_u:.0f} kN ({how_d}: design {design:.0f} kN) from "
             f"{energy:.0f} kJ rated and {n_b:.1f} blows per 25 mm ({how})")
     return GatesResult(energy, s, n_b, r_u, design, rules.design_approach, text)
-
-
-def axial_demand(load_kn: float, rules: Rules) -> float:
-    """The design compression (kN) on the basis of the resistance: working loads for working
-    stress, factored for limit state, converted with ``rules.load_factor`` from what the
-    schedule holds (``rules.loads_are``). The same conversion as the recheck's axial checks
-    (tests/test_driving.py holds the two together).
-    """
-    if rules.design_approach == "working_stress":
-        return load_kn / rules.load_factor if rules.loads_are == "factored" else load_kn
-    return load_kn * rules.load_factor if rules.loads_are == "working" else load_kn
 
 
 def check_driving_resistance(record: DrivingRecord, compression_kn: float,

@@ -27,7 +27,7 @@ from typing import Any, Iterable
 
 from design_core.axial import n_q
 from design_core.checks import Check
-from design_core.driving import axial_demand
+from design_core.loads import axial_demand
 from design_core.ground import GroundModel
 from design_core.rules import Rules
 from design_core.validate import number

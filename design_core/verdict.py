@@ -1,7 +1,7 @@
 """The recheck of one pile on its as-built record, and of a whole project.
 
 ``recheck(design, asbuilt, ground, rules=None, group=None, curve=None) -> PileVerdict`` returns
-the checks of ``design_core.checks.CHECK_CODES`` (16) in that order. What it rests on:
+the checks of ``design_core.checks.AS_BUILT_CODES`` (16) in that order. What it rests on:
 
 Inputs that were not recorded
     A check needs its as-built input; when that was not recorded the check is "not checked"
@@ -113,14 +113,14 @@ def _run(pile: AsBuiltPile, group: CapGroup | None, curve=None) -> PileVerdict:
 def recheck(design: PileDesign, asbuilt: AsBuilt | None, ground: GroundModel,
             rules: Rules | None = None, group: CapGroup | None = None,
             curve: CapacityCurve | None = None) -> PileVerdict:
-    """Every check of one pile (CHECK_CODES) on its as-built record; see the module docstring.
+    """Every as-built check of one pile (AS_BUILT_CODES) on its as-built record; see the module docstring.
 
     design: the pile as designed; asbuilt: the record (None: nothing recorded yet); ground: the
     ground model; rules: the project's rules (defaults when None); group: the pile's cap with
     its loads and the piles' positions (None: not in a cap); curve: a capacity curve for this
     ground, as-built diameter, cut-off and pile type, read when the as-built toe is one of its
     points (the same numbers as working it out). Returns a PileVerdict with the checks in
-    CHECK_CODES order, notes and details.
+    AS_BUILT_CODES order, notes and details.
     """
     rules = Rules() if rules is None else rules
     return _run(prepare(design, asbuilt, ground, rules, group), group, curve)

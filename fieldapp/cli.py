@@ -261,5 +261,15 @@ def _load_extra_commands() -> None:
 
 _load_extra_commands()
 
+
+def _register_migrate_to() -> None:
+    """``toeline migrate-to DATABASE_URL`` (fieldapp/migrate_to.py): a site up to a company server."""
+    from fieldapp import migrate_to  # it imports this module's helpers: a cycle otherwise
+
+    migrate_to.register(main)
+
+
+_register_migrate_to()
+
 if __name__ == "__main__":  # pragma: no cover
     main()

@@ -27,25 +27,22 @@ from __future__ import annotations
 
 import math
 import sqlite3
-from dataclasses import dataclass
+from dataclasses import replace
 from functools import lru_cache
 from typing import Any
 
-import numpy as np
 
 from design_core import Rules
-from design_core.axial import CapacityCurve, capacity_curve, required_toe_level
+from design_core.axial import CapacityCurve, pile_capacity_curve
 from design_core.ground import GroundModel, ground_from_strata
 from design_core.inputs import PileDesign
-from design_core.recheck import _axial_demand
+from design_core.verdict import RequiredToe, required_toe
 from fieldapp import saving
 from fieldapp.pile_inputs import asbuilt_from_record, load_ground, pile_design
 from fieldapp.queries import piles as piles_q
 from fieldapp.queries import projects, records
 
 CURVE_STEP_M = 0.1
-CURVE_MAX_POINTS = 600
-REFINE_TOL_M = 0.001     # the required toe is found to 1 mm, on the deep side
 
 
 # --------------------------------------------------------------------------------------------
@@ -126,17 +123,17 @@ def tablet_curve(design: PileDesign, ground: GroundModel, rules: Rules,
     Top level: the record's cut-off level, else the design cut-off; diameter: the record's
     ``diameter_mm``, else the design diameter. With strata met and a platform level in the
     record, the ground under the pile is rebuilt from them down to the bottom of the model.
-    The curve runs from 0.1 m below the top (or the ground surface) to the bottom of the ground
+    The curve is design_core's step-aware grid (``axial.pile_capacity_curve``: every layer
+    boundary at and just above it, so a reader never interpolates across a jump in base
+    resistance) from below the top (or the ground surface) to the bottom of the ground
     model. None when there is no room for it. ValueError when design_core refuses the inputs.
     """
     ground = _ground_met(ground, record)
     diameter, top = _geometry(design, record)
-    start = min(top, ground.top) - CURVE_STEP_M
-    if start <= ground.bottom:
+    if min(top, ground.top) - CURVE_STEP_M <= ground.bottom:
         return None
-    n = int(min(CURVE_MAX_POINTS, max(2, math.ceil((start - ground.bottom) / CURVE_STEP_M) + 1)))
-    toes = np.linspace(start, ground.bottom, n)
-    return capacity_curve(ground, diameter, top, toes, design.pile_type, rules)
+    return pile_capacity_curve(ground, diameter, top, design.pile_type, rules, step=CURVE_STEP_M,
+                               below_toe_m=None)
 
 
 def curve_dict(curve: CapacityCurve) -> dict[str, list[float]]:
@@ -145,87 +142,35 @@ def curve_dict(curve: CapacityCurve) -> dict[str, list[float]]:
             "design": [round(float(d), 2) for d in curve.design]}
 
 
-@dataclass(frozen=True)
-class RequiredToe:
-    """The toe level a pile needs for its compression demand, and how much deeper than the toe
-    recorded that is (m; None when no toe was recorded or no level was found)."""
-
-    level_m: float | None
-    more_needed_m: float | None
-    demand_kn: float | None
-    reason: str
-
-
-@lru_cache(maxsize=512)   # a key holds its curve (about 25 kB): at most about 13 MB kept
-def _level_on(curve: CapacityCurve, demand: float, ground: GroundModel, diameter: float, top: float,
-              pile_type: str, rules: Rules) -> float | None:
-    """The required level read from ``curve`` (built on these ground, diameter, top, type and
-    rules) and confirmed by ``_confirmed_level``; None when the curve never reaches the demand.
-    Kept between calls (piles of one bundle share a curve and often a load); the curve is
-    keyed by identity, as it compares by identity (the cache holds it, so the identity stays
-    its own). ``clear_kept_levels`` empties both caches."""
-    level = required_toe_level(curve, demand)
-    if level is None:
-        return None
-    reaching = curve.toe_levels[(curve.toe_levels <= level) & (curve.design >= demand)]
-    deep = float(reaching.max()) if reaching.size else float(level)
-    return _confirmed_level(ground, diameter, top, pile_type, rules, demand, float(level), deep)
-
-
 @lru_cache(maxsize=4096)
-def _confirmed_level(ground: GroundModel, diameter: float, top: float, pile_type: str, rules: Rules,
-                     demand: float, level: float, deep: float) -> float:
-    """The highest of ``level`` and the levels below it every ``REFINE_TOL_M`` down to ``deep``
-    (a curve point that reaches ``demand``) where design_core's design resistance reaches the
-    demand: one capacity_curve call over the whole bracket. Kept between calls (the bundle asks
-    again for every pile of the same load); keyed by every input it reads."""
-    n = max(2, int(math.ceil((level - deep) / REFINE_TOL_M)) + 1)
-    grid = np.linspace(level, deep, n)
-    design = capacity_curve(ground, diameter, top, grid, pile_type, rules).design
-    reached = np.flatnonzero(design >= demand)
-    return float(grid[reached[0]]) if reached.size else float(deep)
+def _required(design: PileDesign, asbuilt, ground: GroundModel, rules: Rules) -> RequiredToe:
+    """design_core's ``required_toe``, kept between calls for exactly equal inputs (the bundle
+    asks again for every pile of the same design); ``clear_kept_levels`` empties it."""
+    return required_toe(design, asbuilt, ground, rules)
 
 
 def required_toe_for(design: PileDesign, record: dict[str, Any] | None, ground: GroundModel,
                      rules: Rules, curve: CapacityCurve | None = None) -> RequiredToe:
-    """The required toe of one pile: where its design resistance first reaches the demand the
-    compression check compares (``design_core.recheck._axial_demand``: the design compression
-    on the basis of the design approach, ``loads_are`` and ``load_factor``).
-
-    On the pile as built (``_geometry``) and the ground met (``_ground_met``). The level is
-    read from the tablet's curve (``curve`` when it was built for these inputs, else built
-    here) and then confirmed with design_core at that level: when the resistance there falls
-    short (a step in base resistance at a layer boundary, or the chord of a curving
-    resistance), the level is moved down to the first level, every ``REFINE_TOL_M``, where it
-    is reached (``_confirmed_level``): never shallower than design_core says.
-
-    This is the single call site to switch to design_core's own required-toe function when it
-    lands; every screen, the bundle and the preview take the level from here.
+    """The required toe of one pile, everywhere in the app (page, bundle, preview, record
+    picture): design_core's ``verdict.required_toe`` on the pile as built (as-built diameter and
+    cut-off when recorded, the ground met when strata are logged with a platform level), with
+    the demand the compression check uses. A recheck at the level is ok; 0.05 m above it is
+    short. ``curve`` is accepted for callers that hold one and is not needed.
     """
-    if design.compression <= 0:
-        return RequiredToe(None, None, None, "No compression load in the design")
-    demand = float(_axial_demand(design.compression, rules))
-    curve = curve if curve is not None else tablet_curve(design, ground, rules, record)
-    if curve is None:
-        return RequiredToe(None, None, demand, "The ground model leaves no room below the cut-off")
-    met = _ground_met(ground, record)
-    diameter, top = _geometry(design, record)
-    level = _level_on(curve, demand, met, diameter, top, design.pile_type, rules)
-    if level is None:
-        return RequiredToe(None, None, demand, f"{demand:.0f} kN is not reached in the ground model")
-    more = None
+    del curve
     asbuilt = asbuilt_from_record(record) if record else None
-    if asbuilt is not None and asbuilt.toe_level is not None:
-        more = round(max(0.0, asbuilt.toe_level - level), 3)
-    where = "the ground met" if met is not ground else "the ground model"
-    return RequiredToe(level, more, demand,
-                       f"Design resistance reaches {demand:.0f} kN at {level:.2f} m on {where}")
+    # the mark and the values the resistance does not read do not change the answer: one key
+    # for every pile of the same geometry and load
+    key = replace(design, mark="-", easting=0.0, northing=0.0, cap=None)
+    try:
+        return _required(key, asbuilt, ground, rules)
+    except TypeError:   # an as-built value that cannot be a key: work it out without keeping it
+        return required_toe(key, asbuilt, ground, rules)
 
 
 def clear_kept_levels() -> None:
-    """Forget the required levels kept between calls (``_level_on``, ``_confirmed_level``)."""
-    _level_on.cache_clear()
-    _confirmed_level.cache_clear()
+    """Forget the required levels kept between calls (``_required``)."""
+    _required.cache_clear()
 
 
 # --------------------------------------------------------------------------------------------

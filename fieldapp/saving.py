@@ -29,7 +29,7 @@ from typing import Any
 from design_core import PileVerdict, ProjectItem
 from design_core.ground import GroundModel, ground_from_strata
 from design_core.inputs import CapGroup
-from design_core.recheck import recheck, recheck_project
+from design_core.verdict import recheck, recheck_project
 from fieldapp import db, signoff
 from fieldapp.pile_inputs import (
     RecheckInputs, asbuilt_from_record, cap_group_for, load_cap_group, load_ground, load_inputs,

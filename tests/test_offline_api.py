@@ -111,7 +111,8 @@ def test_curve_and_required_toe_match_design_core(app, client, auth, site):
         assert need is not None and level <= need + 1e-9
         at = capacity_curve(model, d_m, CUTOFF, [level, level + 0.05], "bored", rules).design
         assert at[0] >= pile["load_kn"] > at[1]
-        assert ref.design_at(need) == pytest.approx(pile["load_kn"], rel=1e-3)
+        # the step-aware reading never interpolates across the jump: it reaches the load there
+        assert ref.design_at(need) >= pile["load_kn"] * (1 - 1e-9)
 
 
 def test_each_pile_reassembles_to_the_rig_pages_data(app, client, auth, site):

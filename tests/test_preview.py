@@ -174,7 +174,7 @@ def test_limit_state_with_working_loads_required_toe_is_what_the_compression_che
 
 
 def test_kept_required_levels_equal_ones_made_from_nothing(app, limit_state_site):
-    """The required level kept between calls (rig_view._level_on) is the one worked out afresh,
+    """The required level kept between calls (rig_view._required) is the one worked out afresh,
     and a changed input (the rules' load factor) gives the level of the changed input."""
     from fieldapp import pile_inputs, rig_view
 

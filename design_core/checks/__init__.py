@@ -2,11 +2,11 @@
 
 ``capacity`` (axial compression, tension, group share), ``members`` (structural, lateral),
 ``tolerances`` (position, inclination, cut-off, toe, diameter, cage) and ``concrete`` (cover,
-grade, base debris, volume, time). ``design_core.verdict`` runs them in ``CHECK_CODES`` order.
+grade, base debris, volume, time). ``design_core.verdict`` runs them in ``AS_BUILT_CODES`` order.
 """
 
 from design_core.checks.results import (
-    CAPACITY_CODES, CHECK_CODES, CHECK_LABELS, MEETS_DESIGN, NEEDS_ENGINEER, Check, PileVerdict,
+    AS_BUILT_CODES, CAPACITY_CODES, CHECK_CODES, CHECK_LABELS, MEETS_DESIGN, NEEDS_ENGINEER, Check, PileVerdict,
 )
 
-__all__ = ["CAPACITY_CODES", "CHECK_CODES", "CHECK_LABELS", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict"]
+__all__ = ["AS_BUILT_CODES", "CAPACITY_CODES", "CHECK_CODES", "CHECK_LABELS", "MEETS_DESIGN", "NEEDS_ENGINEER", "Check", "PileVerdict"]

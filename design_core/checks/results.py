@@ -9,7 +9,8 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-CHECK_CODES = (
+# The checks the recheck runs on every pile's as-built record (design_core.verdict), in order.
+AS_BUILT_CODES = (
     "axial_compression",
     "axial_tension",
     "structural",
@@ -26,6 +27,30 @@ CHECK_CODES = (
     "concrete_volume",
     "concrete_time",
     "cage_length",
+)
+
+# Every check code: the as-built checks, then the checks of the installation record by pile type,
+# of the tests after installation and of the further failure modes. The later groups are computed
+# by their own modules' check functions (their inputs: docs/checks.md says where each is run).
+CHECK_CODES = AS_BUILT_CODES + (
+    # installation records by pile type (design_core.driving, .cfa, .helical)
+    "driving_set",
+    "driving_resistance",
+    "driving_refusal",
+    "cfa_increment_volume",
+    "cfa_pressure",
+    "cfa_overdrilling",
+    "torque_capacity",
+    # tests after installation (design_core.loadtest)
+    "load_test",
+    "integrity",
+    # further failure modes (design_core.settlement, .downdrag, .block, .buckling, .uplift)
+    "settlement",
+    "downdrag",
+    "group_capacity",
+    "buckling",
+    "swelling_uplift",
+    "shallow_uplift",
 )
 
 # The checks whose utilisation is demand over capacity: they rank the piles (worst_utilisation).
@@ -49,6 +74,21 @@ CHECK_LABELS = {
     "concrete_volume": "Concrete volume",
     "concrete_time": "Time from batching to discharge",
     "cage_length": "Cage length",
+    "driving_set": "Final set against the driving criterion",
+    "driving_resistance": "Driving resistance by dynamic formula",
+    "driving_refusal": "Refusal before the design toe",
+    "cfa_increment_volume": "Concrete per increment (CFA)",
+    "cfa_pressure": "Concrete pressure on extraction (CFA)",
+    "cfa_overdrilling": "Auger revolutions per pitch (CFA)",
+    "torque_capacity": "Capacity from installation torque",
+    "load_test": "Load test",
+    "integrity": "Integrity test",
+    "settlement": "Settlement under working load",
+    "downdrag": "Downdrag (negative skin friction)",
+    "group_capacity": "Group and block capacity",
+    "buckling": "Buckling of the free length",
+    "swelling_uplift": "Uplift from swelling ground",
+    "shallow_uplift": "Cone pull-out",
 }
 
 MEETS_DESIGN = "meets design"

@@ -127,7 +127,7 @@ def head_hash(conn: sqlite3.Connection, project_id: int | None) -> str:
 def chains(conn: sqlite3.Connection) -> list[int | None]:
     """Every chain present: project ids, with None for the site-wide chain."""
     return [r[0] for r in conn.execute(
-        "SELECT DISTINCT project_id FROM audit_log ORDER BY project_id").fetchall()]
+        "SELECT DISTINCT project_id FROM audit_log ORDER BY project_id NULLS FIRST").fetchall()]
 
 
 def entries(conn: sqlite3.Connection, project_id: int | None, limit: int = 200) -> list[sqlite3.Row]:

@@ -99,7 +99,7 @@ def save_cap(conn: sqlite3.Connection, project_id: int, mark: str, loads: dict |
         raise ValueError("mark must be at most 40 characters")
     values = {name: float((loads or {}).get(name) or 0.0) for name in CAP_LOAD_FIELDS}
     check_loads(values)
-    clash = conn.execute("SELECT id FROM caps WHERE project_id = ? AND mark = ? AND id IS NOT ?",
+    clash = conn.execute("SELECT id FROM caps WHERE project_id = ? AND mark = ? AND id IS DISTINCT FROM ?",
                          (project_id, mark, cap_id)).fetchone()
     if clash:
         raise ValueError(f"mark: another cap is already called {mark!r}")

@@ -120,7 +120,7 @@ def save_model(conn: sqlite3.Connection, project_id: int, name: str, water_level
     name = name.strip()
     if not name:
         raise ValueError("name is required")
-    clash = conn.execute("SELECT id FROM ground_models WHERE project_id = ? AND name = ? AND id IS NOT ?",
+    clash = conn.execute("SELECT id FROM ground_models WHERE project_id = ? AND name = ? AND id IS DISTINCT FROM ?",
                          (project_id, name, ground_model_id)).fetchone()
     if clash:
         raise ValueError(f"name: another ground model is already called {name!r}")

@@ -287,7 +287,7 @@ def save_pile(conn: sqlite3.Connection, project_id: int, values: dict, pile_id: 
     mark = (values.get("mark") or "").strip()
     if not mark or len(mark) > MARK_MAX:
         raise ValueError(f"mark is required (1 to {MARK_MAX} characters)")
-    clash = conn.execute("SELECT id FROM piles WHERE project_id = ? AND mark = ? AND id IS NOT ?",
+    clash = conn.execute("SELECT id FROM piles WHERE project_id = ? AND mark = ? AND id IS DISTINCT FROM ?",
                          (project_id, mark, pile_id)).fetchone()
     if clash:
         raise ValueError(f"mark: another pile is already called {mark!r}")

@@ -112,7 +112,7 @@ def verify_password(conn: sqlite3.Connection, user_id: int, password: str) -> bo
 
 def add_member(conn: sqlite3.Connection, project_id: int, user_id: int) -> None:
     """Make the user a member of the project (no-op if already)."""
-    conn.execute("INSERT OR IGNORE INTO memberships (project_id, user_id) VALUES (?, ?)",
+    conn.execute("INSERT INTO memberships (project_id, user_id) VALUES (?, ?) ON CONFLICT DO NOTHING",
                  (project_id, user_id))
 
 

@@ -29,7 +29,7 @@ import pytest
 
 from design_core.ground import GroundModel, Layer
 from design_core.inputs import PILE_TYPES, AsBuilt, Delivery, PileDesign, StratumMet
-from design_core.recheck import recheck
+from design_core.verdict import recheck
 from design_core.rules import Rules
 from fieldapp import db
 from fieldapp.rig_view import rig_data_from_bundle

@@ -5,15 +5,19 @@ signed-in ``requests`` session, small generated images. The demo logins are ``de
 from __future__ import annotations
 
 import io
+import itertools
 import os
 import re
+import shutil
 import signal
 import socket
 import subprocess
 import sys
 import time
 from pathlib import Path
+from urllib.parse import urlsplit, urlunsplit
 
+import psycopg
 import requests
 from PIL import Image
 
@@ -35,7 +39,8 @@ class Server:
 
     def __init__(self, data: Path, *extra: str, env: dict | None = None, scheme: str = "http"):
         self.data, self.extra, self.scheme = data, extra, scheme
-        self.env = {**os.environ, **(env or {})}
+        url = database_of(data)
+        self.env = {**os.environ, **({"TOELINE_DATABASE_URL": url} if url else {}), **(env or {})}
         self.port = free_port()
         self.proc: subprocess.Popen | None = None
         self.log = data.parent / f"server-{self.port}.log"
@@ -117,11 +122,41 @@ def small_png(size: int = 32) -> bytes:
     return out.getvalue()
 
 
+# The PostgreSQL run: the demo's database, and the file in a data folder naming the database
+# that belongs to it (a module's copy of the demo has its own database; see copy_demo).
+DEMO_DATABASE = f"toeline_test_demo_{os.getpid()}"
+DATABASE_MARK = "test-database-url"
+_copies = itertools.count(1)
+
+
+def database_of(data: Path) -> str | None:
+    """The PostgreSQL database of a test data folder (None: SQLite in the folder)."""
+    mark = Path(data) / DATABASE_MARK
+    if mark.exists():
+        return mark.read_text().strip()
+    return os.environ.get("TOELINE_DATABASE_URL") or None
+
+
+def copy_demo(template: Path, data: Path) -> Path:
+    """Copy the demo data folder for a module's tests; on the PostgreSQL run also its database,
+    as a database of the folder's own (named in the folder)."""
+    shutil.copytree(template, data)
+    server = os.environ.get("TOELINE_TEST_DATABASE_URL")
+    if server:
+        name = f"toeline_test_module_{os.getpid()}_{next(_copies)}"
+        with psycopg.connect(server, autocommit=True) as conn:
+            conn.execute(f"CREATE DATABASE {name} TEMPLATE {DEMO_DATABASE}")
+        parts = urlsplit(server)
+        (data / DATABASE_MARK).write_text(urlunsplit(parts._replace(path="/" + name)))
+    return data
+
+
 def make_app(data: Path):
     """The Flask app on a data folder with CSRF on, as in production."""
     from fieldapp import create_app
 
-    return create_app({"TESTING": True}, data_dir=data)
+    url = database_of(data)
+    return create_app({"TESTING": True, **({"DATABASE_URL": url} if url else {})}, data_dir=data)
 
 
 def sign_in(client, role: str) -> str:
@@ -145,3 +180,43 @@ def engineer_site(data: Path) -> dict:
     with app.app_context():
         project_id = db.get_db().execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
     return {"app": app, "client": client, "token": token, "data": data, "project": project_id}
+
+
+class _TupleRows:
+    """A PostgreSQL connection (fieldapp.db) giving plain tuples, as sqlite3.connect does."""
+
+    def __init__(self, conn):
+        self.conn = conn
+
+    def execute(self, sql: str, params=()):
+        return self.conn.execute(sql, params, None)
+
+    def close(self) -> None:
+        self.conn.close()
+
+
+def open_database(data: Path):
+    """The test's database as a plain DB-API connection with tuple rows: the SQLite file in the
+    data folder, or the PostgreSQL database ``TOELINE_DATABASE_URL`` names (the PostgreSQL run)."""
+    url = database_of(data)
+    if url:
+        from fieldapp import db
+
+        return _TupleRows(db.connect(url))
+    import sqlite3
+
+    return sqlite3.connect(str(data / "toeline.sqlite3"))
+
+
+def integrity_ok(conn) -> bool:
+    """SQLite: ``PRAGMA integrity_check`` is ok. PostgreSQL: amcheck finds every B-tree index of
+    the schema consistent with itself (``bt_index_check`` raises on a corrupt one)."""
+    if isinstance(conn, _TupleRows):
+        conn.execute("CREATE EXTENSION IF NOT EXISTS amcheck")
+        checked = conn.execute(
+            "SELECT COUNT(bt_index_check(c.oid)) FROM pg_index i JOIN pg_class c ON c.oid = i.indexrelid "
+            "JOIN pg_am a ON a.oid = c.relam WHERE a.amname = 'btree' "
+            "AND c.relnamespace = 'public'::regnamespace").fetchone()[0]
+        return checked > 0
+    return conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+

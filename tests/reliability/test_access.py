@@ -25,16 +25,15 @@ from __future__ import annotations
 
 import io
 import re
-import sqlite3
 import uuid
 from html.parser import HTMLParser
 from pathlib import Path
 
 import pytest
-from reliability_kit import LOGINS, make_app, sign_in, small_jpeg
+from reliability_kit import LOGINS, copy_demo, make_app, open_database, sign_in, small_jpeg
 
 from fieldapp import db, photos, saving
-from fieldapp.queries import audit, caps, ground, piles, projects, records, users
+from fieldapp.queries import audit, caps, ground, locations, piles, projects, records, users
 
 ROLES = ("admin", "engineer", "inspector", "viewer", "anonymous")
 OUTSIDER = ("outsider@other.example", "outsider password 9")
@@ -90,6 +89,13 @@ EXPECT: dict[str, str | tuple[str, set[int]]] = {
     "record.job_status": "member",
     "record.download": "member",
     "record.schedule": "member",
+    "imports.ground_data": "engineer",
+    "imports.upload_ags": "engineer",
+    "imports.export_ags": "engineer",
+    "imports.model_from_location": "engineer",
+    "imports.layout_form": "engineer",
+    "imports.layout_preview": "engineer",
+    "imports.layout_apply": "engineer",
 }
 
 ALLOWED_ROLES = {
@@ -118,10 +124,9 @@ def _expect(endpoint: str) -> tuple[str, set[int]]:
 
 @pytest.fixture(scope="module")
 def world(tmp_path_factory, demo_template):
-    import shutil
 
     data = tmp_path_factory.mktemp("access") / "data"
-    shutil.copytree(demo_template, data)
+    copy_demo(demo_template, data)
     app = make_app(data)
     with app.app_context():
         conn = db.get_db()
@@ -159,13 +164,23 @@ def world(tmp_path_factory, demo_template):
                              f"caption {SCRIPT} {IMG} {BOLD}", small_jpeg(project_id * 7 + pile.id),
                              app.config["PHOTO_DIR"])
         job_of = _record_jobs(conn, app, (own, other))
+        location = conn.execute("SELECT id FROM locations WHERE project_id = ? ORDER BY id LIMIT 1",
+                                (own,)).fetchone()[0]  # the demo's invented AGS4 boreholes
+        with db.write(conn):
+            other_location = locations.replace_location(conn, other, None, {
+                "loca_id": "OB1", "easting_m": 10.0, "northing_m": 20.0, "ground_level_m": 100.0,
+                "final_depth_m": 12.0, "strata": [
+                    {"top_depth_m": 0.0, "base_depth_m": 12.0, "description": "CLAY",
+                     "proposed_material": "cohesive"}]})
         photo_of = {pid: conn.execute("SELECT id FROM photos WHERE project_id = ? ORDER BY id LIMIT 1",
                                       (pid,)).fetchone()[0] for pid in (own, other)}
     objects = {
         own: {"project_id": own, "pile_id": p1.id, "cap_id": p1.cap_id, "model_id": p1.ground_model_id,
-              "photo_id": photo_of[own], "mark": "P1", "job_id": job_of.get(own)},
+              "photo_id": photo_of[own], "mark": "P1", "job_id": job_of.get(own),
+              "location_id": location},
         other: {"project_id": other, "pile_id": x9.id, "cap_id": other_cap, "model_id": other_gm,
-                "photo_id": photo_of[other], "mark": "X9", "job_id": job_of.get(other)},
+                "photo_id": photo_of[other], "mark": "X9", "job_id": job_of.get(other),
+                "location_id": other_location},
     }
     return {"app": app, "data": data, "own": own, "other": other, "objects": objects,
             "marked_pile": marked}
@@ -257,9 +272,9 @@ class Door:
 
 
 def _fingerprint(data) -> tuple:
-    conn = sqlite3.connect(str(data / "toeline.sqlite3"))
+    conn = open_database(data)
     try:
-        return tuple(conn.execute(f"SELECT COUNT(*), COALESCE(MAX(rowid), 0) FROM {table}").fetchone()
+        return tuple(conn.execute(f"SELECT COUNT(*), COALESCE(MAX(id), 0) FROM {table}").fetchone()
                      for table in ("audit_log", "pile_records", "photos", "piles", "caps", "ground_models",
                                    "rule_sets"))
     finally:

@@ -21,14 +21,12 @@ import io
 import json
 import math
 import re
-import shutil
-import sqlite3
 import uuid
 
 import pytest
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
-from reliability_kit import engineer_site
+from reliability_kit import copy_demo, engineer_site, open_database
 
 from fieldapp import db, record_input
 from fieldapp.queries import piles as piles_q
@@ -42,7 +40,7 @@ PROFILE = settings(max_examples=60, deadline=None, derandomize=True,
 @pytest.fixture(scope="module")
 def site(tmp_path_factory, demo_template):
     data = tmp_path_factory.mktemp("bad-input") / "data"
-    shutil.copytree(demo_template, data)
+    copy_demo(demo_template, data)
     site = engineer_site(data)
     with site["app"].app_context():
         conn = db.get_db()
@@ -53,7 +51,7 @@ def site(tmp_path_factory, demo_template):
 
 def _state(site) -> tuple:
     """Everything a save or an import could change."""
-    conn = sqlite3.connect(str(site["data"] / "toeline.sqlite3"))
+    conn = open_database(site["data"])
     try:
         return (
             conn.execute("SELECT COUNT(*), COALESCE(MAX(id), 0) FROM pile_records").fetchone(),

@@ -15,7 +15,6 @@ Promises checked:
 from __future__ import annotations
 
 import os
-import sqlite3
 import threading
 import time
 import uuid
@@ -23,7 +22,7 @@ from collections import Counter, defaultdict
 
 import pytest
 import requests
-from reliability_kit import LOGINS, Server, login
+from reliability_kit import LOGINS, Server, integrity_ok, login, open_database
 
 SECONDS = float(os.environ.get("TOELINE_CONCURRENCY_SECONDS", "20"))
 CLIENTS = 16
@@ -78,7 +77,7 @@ class Writer(threading.Thread):
 
 
 def test_sixteen_writers_no_lock_errors_no_lost_update(demo_data):
-    conn = sqlite3.connect(str(demo_data / "toeline.sqlite3"))
+    conn = open_database(demo_data)
     project_id = conn.execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
     rows = conn.execute("SELECT mark, current_version FROM piles WHERE project_id = ? ORDER BY id LIMIT ?",
                         (project_id, PILES)).fetchall()
@@ -122,7 +121,7 @@ def test_sixteen_writers_no_lock_errors_no_lost_update(demo_data):
         duplicated = [v for v, n in Counter(versions).items() if n > 1]
         assert duplicated == [], f"{mark}: versions given to two saves: {duplicated}"
 
-    conn = sqlite3.connect(str(demo_data / "toeline.sqlite3"))
+    conn = open_database(demo_data)
     stored = {row[0]: (row[1], row[2]) for row in conn.execute(
         "SELECT r.client_id, p.mark, r.version FROM pile_records r JOIN piles p ON p.id = r.pile_id "
         "WHERE r.project_id = ?", (project_id,))}
@@ -134,5 +133,5 @@ def test_sixteen_writers_no_lock_errors_no_lost_update(demo_data):
         assert versions == list(range(1, len(versions) + 1))
         made = [v for v in versions if v > start[mark]]
         assert made == sorted(by_pile[mark]), f"{mark}: a stored save nobody was told about"
-    assert conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    assert integrity_ok(conn)
     conn.close()

@@ -18,7 +18,6 @@ import hashlib
 import json
 import os
 import random
-import sqlite3
 import subprocess
 import sys
 import threading
@@ -27,7 +26,7 @@ import uuid
 
 import pytest
 import requests
-from reliability_kit import LOGINS, ROOT, Server, login, small_jpeg
+from reliability_kit import LOGINS, ROOT, Server, integrity_ok, login, open_database, small_jpeg
 
 KILLS = int(os.environ.get("TOELINE_CRASH_KILLS", "20"))
 CLIENTS = 8
@@ -122,7 +121,7 @@ def _wait(condition, timeout: float, what: str) -> None:
 
 def _piles(data) -> tuple[int, dict[str, int]]:
     """The project and its first piles with their stored versions (the demo recorded some)."""
-    conn = sqlite3.connect(str(data / "toeline.sqlite3"))
+    conn = open_database(data)
     project_id = conn.execute("SELECT id FROM projects ORDER BY id LIMIT 1").fetchone()[0]
     piles = dict(conn.execute("SELECT mark, current_version FROM piles WHERE project_id = ? ORDER BY id "
                               "LIMIT ?", (project_id, CLIENTS)).fetchall())
@@ -176,8 +175,8 @@ def test_every_acknowledged_write_survives_sigkill(demo_data):
           f"{len(photos)} photos; {retries} sends without an answer were retried")
     assert len(records) >= KILLS and len(photos) >= KILLS // 4, "too few writes to prove anything"
 
-    conn = sqlite3.connect(str(demo_data / "toeline.sqlite3"))
-    assert conn.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+    conn = open_database(demo_data)
+    assert integrity_ok(conn)
     stored = {row[0]: row[1:] for row in conn.execute(
         "SELECT r.client_id, p.mark, r.version FROM pile_records r JOIN piles p ON p.id = r.pile_id")}
     for r in records:

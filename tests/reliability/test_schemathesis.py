@@ -12,14 +12,13 @@ from __future__ import annotations
 
 import json
 import re
-import shutil
 import uuid
 import zlib
 
 import pytest
 import schemathesis
 from hypothesis import HealthCheck, settings
-from reliability_kit import engineer_site
+from reliability_kit import copy_demo, engineer_site
 from schemathesis.specs.openapi.checks import positive_data_acceptance
 
 from fieldapp import db, openapi
@@ -31,7 +30,7 @@ EXAMPLES = 12
 @pytest.fixture(scope="module")
 def signed_in(tmp_path_factory, demo_template):
     data = tmp_path_factory.mktemp("schemathesis") / "data"
-    shutil.copytree(demo_template, data)
+    copy_demo(demo_template, data)
     site = engineer_site(data)
     with site["app"].app_context():
         marks = [r[0] for r in db.get_db().execute(
