@@ -47,8 +47,11 @@ def _in_use_message(data_dir: Path, doing: str) -> str:
     return f"the data folder {data_dir} is in use by {who}: {how}, then {doing} again"
 
 
-def acquire(data_dir: str | Path, doing: str = "start") -> None:
+def acquire(data_dir: str | Path, doing: str = "start", shared: bool = False) -> None:
     """Take the data folder's lock for the rest of this process's life (idempotent).
+
+    ``shared``: a worker of a multi-process server (deploy/wsgi.py under gunicorn) takes the
+    lock shared, so its sibling workers can too, while restore (exclusive) is still refused.
 
     FolderInUse when another process holds it. ``doing`` names the action for the message
     ("serve", "restore").
@@ -60,7 +63,7 @@ def acquire(data_dir: str | Path, doing: str = "start") -> None:
     folder.mkdir(parents=True, exist_ok=True)
     fd = os.open(lock_path(folder), os.O_RDWR | os.O_CREAT, 0o600)
     try:
-        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        fcntl.flock(fd, (fcntl.LOCK_SH if shared else fcntl.LOCK_EX) | fcntl.LOCK_NB)
     except BlockingIOError:
         os.close(fd)
         raise FolderInUse(_in_use_message(folder, doing)) from None
@@ -91,7 +94,7 @@ def in_use(data_dir: str | Path) -> bool:
         return False
     fd = os.open(lock_path(folder), os.O_RDONLY)
     try:
-        fcntl.flock(fd, fcntl.LOCK_SH | fcntl.LOCK_NB)
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)   # any holder, shared or exclusive
     except BlockingIOError:
         return True
     finally:

@@ -90,3 +90,34 @@ def test_the_demo_command_is_refused_on_a_folder_a_server_holds(demo_data):
         assert result.exit_code != 0 and "in use by pid" in result.output, result.output
     finally:
         server.stop()
+
+
+def test_workers_of_a_multi_process_server_share_the_lock_and_restore_still_refuses(tmp_path):
+    """deploy/wsgi.py: each gunicorn worker takes the lock shared; two workers can hold it at
+    once, and restore (exclusive) is refused while either runs."""
+    import subprocess
+    import sys
+    import time
+
+    data = tmp_path / "data"
+    hold = ("import sys, time; from fieldapp import datalock; "
+            "datalock.acquire(sys.argv[1], 'serve', shared=True); print('held', flush=True); time.sleep(30)")
+    workers = [subprocess.Popen([sys.executable, "-c", hold, str(data)], stdout=subprocess.PIPE, text=True)
+               for _ in range(2)]
+    try:
+        for worker in workers:
+            assert worker.stdout.readline().strip() == "held"   # the second worker got it too
+        assert datalock.in_use(data)
+        try:
+            datalock.acquire(data, "restore")
+        except datalock.FolderInUse as exc:
+            assert "in use" in str(exc)
+        else:
+            datalock.release(data)
+            raise AssertionError("restore took the lock while two server workers held it")
+    finally:
+        for worker in workers:
+            worker.kill()
+            worker.wait()
+    time.sleep(0.1)
+    assert not datalock.in_use(data)   # the kernel dropped the workers' locks with them
