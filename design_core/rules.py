@@ -639,6 +639,41 @@ class Rules:
         0.04, "EN 1536 inclination, rakes 4 <= n < 15", "",
         "EN 1536:2010 section 8: 0.04 (from memory).", 0.001, 0.3)
 
+    # --- tests after installation: how many piles of each type (fieldapp.pile_tests) ---------
+    # The share of piles of a type that need each test; cfa integrity is
+    # cfa_integrity_test_fraction above. Shares round up to whole piles.
+    test_integrity_fraction_bored: float = _rule(
+        1.0, "Fraction of bored piles to integrity-test", "",
+        "Common practice (UK, ICE SPERW 3rd ed. 2017, from memory): every bored pile is "
+        "integrity tested; set from the project specification.", 0.0, 1.0)
+    test_integrity_fraction_driven: float = _rule(
+        0.0, "Fraction of driven piles to integrity-test", "",
+        "Common practice: driven piles are proved by their driving record and dynamic tests; "
+        "set from the project specification.", 0.0, 1.0)
+    test_integrity_fraction_screw: float = _rule(
+        0.0, "Fraction of screw piles to integrity-test", "",
+        "Common practice: steel screw piles are proved by torque and load tests.", 0.0, 1.0)
+    test_dynamic_fraction_driven: float = _rule(
+        0.05, "Fraction of driven piles to test with high-strain dynamic tests", "",
+        "FHWA GEC 12 (Hannigan et al. 2016), dynamic monitoring of a share of production piles, "
+        "a few percent (from memory); set from the project specification.", 0.0, 1.0)
+    test_static_per_type: float = _rule(
+        1.0, "Static load tests per pile type used on the project, at least", "tests",
+        "Common practice: at least one static (preliminary or proof) test per pile type; "
+        "EN 1997-1 7.5 asks for load tests where design is not proved by experience "
+        "(from memory).", 0.0, 100.0)
+    test_dynamic_compression_fraction_steel: float = _rule(
+        0.9, "Dynamic test: most compression and tension stress in steel, fraction of f_y", "",
+        "AASHTO LRFD 10.7.8: 0.9 f_y for steel piles during driving (from memory).", 0.1, 1.0)
+    test_dynamic_compression_fraction_concrete: float = _rule(
+        0.85, "Dynamic test: most compression stress in concrete, fraction of f_c", "",
+        "AASHTO LRFD 10.7.8: 0.85 f'c for concrete piles during driving (from memory).",
+        0.1, 1.0)
+    test_dynamic_tension_sqrt_concrete: float = _rule(
+        0.25, "Dynamic test: most tension stress in concrete, factor on sqrt(f_c) in MPa", "MPa^0.5",
+        "AASHTO LRFD 10.7.8: 0.25 sqrt(f'c) MPa plus the effective prestress for prestressed "
+        "piles (from memory; the prestress is left out, conservative).", 0.0, 2.0)
+
     def __post_init__(self):
         for f in fields(self):
             meta = f.metadata

@@ -34,7 +34,7 @@ csrf = CSRFProtect()
 
 # Every blueprint of the app, in registration order (modules under fieldapp/).
 BLUEPRINTS = ("piles", "ground", "rules", "rig", "review", "record.views", "api", "offline", "openapi",
-              "imports")
+              "imports", "pile_tests", "soundings")
 
 CAUTION = (
     "Caution: Toeline's checks aid a competent engineer; they do not replace the engineer of "

@@ -30,8 +30,9 @@ from fieldapp.queries import audit
 MANIFEST = "manifest.json"
 DB_NAME = "toeline.sqlite3"
 ANCHOR_DIR = "anchors"
-# Folders of evidence kept by content hash beside the database: photos, AGS4 files, layout drawings.
-EVIDENCE_DIRS = ("photos", "ags", "layouts")
+# Folders of evidence kept by content hash beside the database: photos, AGS4 files, layout
+# drawings, the result files of tests after installation.
+EVIDENCE_DIRS = ("photos", "ags", "layouts", "test_files")
 
 
 def sha256_file(path: Path) -> str:

@@ -249,7 +249,7 @@ def _load_extra_commands() -> None:
     import importlib
 
     for name in ("fieldapp.schedule_io", "fieldapp.review_cli", "fieldapp.record.cli", "fieldapp.backup",
-                 "fieldapp.import_cli"):
+                 "fieldapp.import_cli", "fieldapp.pile_tests_cli"):
         try:
             module = importlib.import_module(name)
         except ModuleNotFoundError as exc:

@@ -138,6 +138,20 @@ class PgConnection:
             raise _mapped(exc) from exc
         return PgCursor(cur, returns_id)
 
+    def executemany(self, sql: str, seq_of_params) -> None:
+        """As sqlite3's: one statement over many parameter rows (no rows returned)."""
+        text, returns_id = _pg_sql(sql, True, _identity_tables(self))
+        if returns_id:   # no id is wanted back from many rows
+            text = text.removesuffix(" RETURNING id")
+        rows = list(seq_of_params)
+        if not rows:
+            return
+        cur = self.raw.cursor()
+        try:
+            cur.executemany(text, rows)
+        except psycopg.Error as exc:
+            raise _mapped(exc) from exc
+
     def cursor(self) -> "_PgCursorMaker":
         """A cursor as sqlite3's: ``row_factory = None`` gives plain tuples."""
         return _PgCursorMaker(self)

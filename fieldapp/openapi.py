@@ -222,6 +222,12 @@ def _add_reads(paths: dict) -> None:
         "responses": {"200": _json({"type": "object", "properties": {
             "mark": {"type": "string"}, "versions": {"type": "array", "items": RECORD_VERSION}}},
             "the versions"), **DENIED}}}
+    paths[pile + "/tests"] = {"get": {  # fieldapp.pile_tests
+        "summary": "the pile's tests after installation (the test register), oldest first",
+        "parameters": [PROJECT_ID, MARK],
+        "responses": {"200": _json({"type": "object", "properties": {
+            "pile": {"type": "string"}, "tests": {"type": "array", "items": {"type": "object"}}}},
+            "the tests"), **DENIED}}}
     paths[pile + "/photos"]["get"] = {
         "summary": "the photos of a pile with the addresses of their files",
         "parameters": [PROJECT_ID, MARK],

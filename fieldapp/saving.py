@@ -35,6 +35,7 @@ from fieldapp.pile_inputs import (
     RecheckInputs, asbuilt_from_record, cap_group_for, load_cap_group, load_ground, load_inputs,
     pile_design,
 )
+from fieldapp.pile_test_register import verdict_with_tests
 from fieldapp.queries import audit, projects, records
 from fieldapp.queries import piles as piles_q
 from fieldapp.record_input import RecordInvalid, clean_text, validate_record
@@ -118,6 +119,7 @@ def _evaluate(conn: sqlite3.Connection, pile_row, inputs: RecheckInputs,
     inputs = replace(inputs, group=cap_group_for(conn, pile_row, clean))
     try:
         verdict = recheck_pile(conn, pile_row.project_id, pile_row, clean, inputs)
+        verdict = verdict_with_tests(conn, pile_row.id, verdict)  # the tests after installation
         borrowed = borrowed_list(verdict, inputs, clean)
     except ValueError as exc:  # design_core refused the combination; say so, save nothing
         raise RecordInvalid({"record": f"the recheck cannot use this record: {exc}"}) from None
@@ -325,6 +327,7 @@ def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, r
                 verdict = recheck_pile(conn, project_id, mate, current.record, inputs)
             except ValueError:
                 continue  # its own save succeeded before; the engineer sees it as it was
+        verdict = verdict_with_tests(conn, mate.id, verdict)  # the tests after installation
         checks = [c.to_dict() for c in verdict.short_first()]
         before = {c["code"]: c["ok"] for c in current.checks}
         # A check added to Toeline after this version was stored counts as ok before it: one

@@ -216,3 +216,67 @@ def nearest_to_piles(conn: sqlite3.Connection, project_id: int) -> dict[str, tup
         out[row["mark"]] = (loc.loca_id, math.hypot(loc.easting_m - row["easting_m"],
                                                      loc.northing_m - row["northing_m"]))
     return out
+
+
+# --- soundings and SPT profiles uploaded as Toeline CSV (fieldapp.soundings) ------------------
+
+POSITION_TOL_M = 0.01
+
+
+class SoundingClash(ValueError):
+    """An upload whose name is a location already stored at another position or level."""
+
+
+def add_sounding(conn: sqlite3.Connection, project_id: int, ground_model_id: int, kind: str,
+                 name: str, easting_m: float, northing_m: float, ground_level_m: float,
+                 readings: list[tuple]) -> int:
+    """Store a CPT sounding (``kind`` "cpt", readings (depth_m, qc_mpa, fs_kpa, u2_kpa)) or an
+    SPT profile ("spt", readings (depth_m, n, energy_ratio_pct, n60)) under the location
+    ``name``, linked to the ground model; its location id. Run inside ``db.write``.
+
+    A new name makes a location (type "CPT" or "SPT"). An existing location of that name keeps
+    its strata and other readings: its CPT test of that name, or its SPT readings, are
+    replaced; it must be at the same position and ground level (within 0.01 m), else
+    SoundingClash.
+    """
+    old = conn.execute("SELECT * FROM locations WHERE project_id = ? AND loca_id = ?",
+                       (project_id, name)).fetchone()
+    if old is not None:
+        moved = [f for f, v in (("easting_m", easting_m), ("northing_m", northing_m),
+                                ("ground_level_m", ground_level_m))
+                 if abs(old[f] - v) > POSITION_TOL_M]
+        if moved:
+            raise SoundingClash(f"location {name} is stored with another {', '.join(moved)} "
+                                f"({', '.join(f'{old[f]:g}' for f in moved)}): give the same "
+                                "position and level, or another name")
+        location_id = old["id"]
+        conn.execute("UPDATE locations SET ground_model_id = ? WHERE id = ?",
+                     (ground_model_id, location_id))
+    else:
+        location_id = conn.execute(
+            "INSERT INTO locations (project_id, loca_id, loca_type, easting_m, northing_m, "
+            "ground_level_m, final_depth_m, remarks, ags_file_id, ground_model_id) "
+            "VALUES (?, ?, ?, ?, ?, ?, ?, '', NULL, ?)",
+            (project_id, name, kind.upper(), easting_m, northing_m, ground_level_m,
+             max(r[0] for r in readings), ground_model_id)).lastrowid
+    if kind == "cpt":
+        conn.execute("DELETE FROM cpt_tests WHERE location_id = ? AND test_ref = ?",
+                     (location_id, name))
+        test_id = conn.execute("INSERT INTO cpt_tests (location_id, test_ref, cone_type, remarks) "
+                               "VALUES (?, ?, '', 'uploaded as Toeline CSV')",
+                               (location_id, name)).lastrowid
+        conn.executemany("INSERT INTO cpt_readings (cpt_test_id, depth_m, qc_mpa, fs_kpa, u2_kpa) "
+                         "VALUES (?, ?, ?, ?, ?)", [(test_id, *r) for r in readings])
+    else:
+        conn.execute("DELETE FROM spt_readings WHERE location_id = ?", (location_id,))
+        conn.executemany("INSERT INTO spt_readings (location_id, depth_m, n_value, reported, "
+                         "energy_ratio_pct, n60) VALUES (?, ?, ?, '', ?, ?)",
+                         [(location_id, d, int(n), er, n60) for d, n, er, n60 in readings])
+    return location_id
+
+
+def for_model(conn: sqlite3.Connection, project_id: int, ground_model_id: int) -> list[Location]:
+    """The project's locations linked to a ground model, by name."""
+    return [_location(r) for r in conn.execute(
+        "SELECT * FROM locations WHERE project_id = ? AND ground_model_id = ? ORDER BY loca_id",
+        (project_id, ground_model_id)).fetchall()]

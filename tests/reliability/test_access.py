@@ -96,6 +96,14 @@ EXPECT: dict[str, str | tuple[str, set[int]]] = {
     "imports.layout_form": "engineer",
     "imports.layout_preview": "engineer",
     "imports.layout_apply": "engineer",
+    "pile_tests.project_register": "member",
+    "pile_tests.pile_register": "member",
+    "pile_tests.add": "recorder",
+    "pile_tests.sheet": "member",
+    "pile_tests.test_file": "member",
+    "pile_tests.api_list": "member",
+    "soundings.show": "member",
+    "soundings.upload": "engineer",
 }
 
 ALLOWED_ROLES = {
@@ -163,6 +171,7 @@ def world(tmp_path_factory, demo_template):
             photos.add_photo(conn, project_id, pile, inspector, str(uuid.uuid4()), "base",
                              f"caption {SCRIPT} {IMG} {BOLD}", small_jpeg(project_id * 7 + pile.id),
                              app.config["PHOTO_DIR"])
+        test_of = _pile_tests(conn, app, ((own, p1), (other, x9)))
         job_of = _record_jobs(conn, app, (own, other))
         location = conn.execute("SELECT id FROM locations WHERE project_id = ? ORDER BY id LIMIT 1",
                                 (own,)).fetchone()[0]  # the demo's invented AGS4 boreholes
@@ -177,13 +186,35 @@ def world(tmp_path_factory, demo_template):
     objects = {
         own: {"project_id": own, "pile_id": p1.id, "cap_id": p1.cap_id, "model_id": p1.ground_model_id,
               "photo_id": photo_of[own], "mark": "P1", "job_id": job_of.get(own),
-              "location_id": location},
+              "location_id": location, "test_id": test_of[own]},
         other: {"project_id": other, "pile_id": x9.id, "cap_id": other_cap, "model_id": other_gm,
                 "photo_id": photo_of[other], "mark": "X9", "job_id": job_of.get(other),
-                "location_id": other_location},
+                "location_id": other_location, "test_id": test_of[other]},
     }
     return {"app": app, "data": data, "own": own, "other": other, "objects": objects,
             "marked_pile": marked}
+
+
+def _pile_tests(conn, app, piles_of) -> dict[int, int]:
+    """One register entry per project (a low strain test with a small kept PDF), stored directly
+    so the matrix needs no check code beyond the recheck's; its id is the test_id of the routes."""
+    from fieldapp import pile_test_register as reg
+    from fieldapp.queries import pile_tests as tests_q
+
+    pdf = b"%PDF-1.4\n%stand-in\n%%EOF\n"
+    sha = reg.keep_file(app.config["DATA_DIR"], pdf, "pdf")
+    out = {}
+    with db.write(conn):
+        for pid, pile in piles_of:
+            out[pid] = tests_q.insert(
+                conn, project_id=pid, pile_id=pile.id, kind="low_strain", tested_on="2026-03-05",
+                tested_by=f"tester {IMG}", file_sha256=sha, file_name="report.pdf", file_ext="pdf",
+                file_bytes=len(pdf), created_by=None,
+                result={"rating": "sound", "anomaly_depth_m": None, "zones": [], "overall": "sound",
+                        "description": f"desc {SCRIPT} {BOLD}"},
+                check={"code": "integrity", "value": None, "limit": None, "unit": "", "utilisation": None,
+                       "ok": True, "reason": f"Integrity sound {BOLD}."})
+    return out
 
 
 def _record_jobs(conn, app, project_ids) -> dict[int, int]:
@@ -383,7 +414,7 @@ def test_no_object_reachable_through_another_projects_id(world, no_pdf_builds):
     failures, tried = [], 0
     for rule, method in _routes(app):
         object_args = [a for a in rule.arguments
-                       if a in ("pile_id", "cap_id", "model_id", "photo_id", "mark", "job_id")]
+                       if a in ("pile_id", "cap_id", "model_id", "photo_id", "mark", "job_id", "test_id", "location_id")]
         if "project_id" not in rule.arguments or not object_args:
             continue
         for mine, theirs in ((own, other), (other, own)):
