@@ -83,7 +83,7 @@
   // The load on the basis of the axial resistance, as design_core's compression check takes it:
   // working loads against a working-stress resistance, factored against a limit-state one.
   function axialDemand(data) {
-    const load = data.load_kn;
+    const load = data.design ? data.design.compression_kn : NaN;  // the schedule load: load_kn is already the demand
     const r = data.rules;
     if (!isNum(load)) return { demand: null, basis: "" };
     if (!r || !r.design_approach || !r.loads_are || !isNum(r.load_factor)) return { demand: null, basis: "" };
