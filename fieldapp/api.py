@@ -52,7 +52,7 @@ from fieldapp import db, photos, rig_view, saving
 from fieldapp.auth import _deny, login_required, project_or_404
 from fieldapp.queries import photos as photos_q
 from fieldapp.queries import piles as piles_q
-from fieldapp.queries import audit, projects, records
+from fieldapp.queries import audit, projects, recheck_jobs, records
 from fieldapp.record_input import RecordInvalid
 
 bp = Blueprint("api", __name__, url_prefix="/api/v1")
@@ -265,6 +265,18 @@ def _pile_list(conn, project) -> "_CachedList":
     if token != audit.GENESIS:
         cache[project.id] = out
     return out
+
+
+@bp.get("/projects/<int:project_id>/recheck-jobs/<int:job_id>")
+@login_required
+def recheck_job(project_id: int, job_id: int):
+    """A background recheck's progress: state (waiting, running, done, failed), total, done,
+    changed, error."""
+    project = project_or_404(project_id)
+    job = recheck_jobs.get(db.get_db(), job_id)
+    if job is None or job.project_id != project.id:
+        return _error(404, error="not found")
+    return jsonify(job.to_dict())
 
 
 @bp.get("/projects/<int:project_id>/piles/<mark>")

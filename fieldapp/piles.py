@@ -14,10 +14,10 @@ from design_core.checks import MEETS_DESIGN, NEEDS_ENGINEER
 from design_core.inputs import PILE_TYPES
 from flask import Blueprint, Response, abort, current_app, flash, g, jsonify, redirect, render_template, request, url_for
 
-from fieldapp import db, saving
+from fieldapp import db, jobs, saving
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.forms import CapForm, ImportForm, PileForm, form_messages, options
-from fieldapp.queries import audit, caps, ground, piles, projects
+from fieldapp.queries import audit, caps, ground, piles, projects, recheck_jobs
 from fieldapp.schedule_io import COLUMN_DOC, COLUMNS, export_schedule, import_schedule
 
 bp = Blueprint("piles", __name__)
@@ -130,6 +130,7 @@ def list_piles(project_id):
                            sort_columns=SORT_COLUMNS, verdict_class=VERDICT_CLASS,
                            cap_marks=sorted(cap_marks, key=piles.natural_key) if len(cap_marks) <= CAP_SELECT_MAX else None,
                            n_caps=len(cap_marks), models=ground.list_models(conn, project_id),
+                           job=recheck_jobs.latest(conn, project_id),
                            import_form=ImportForm(), columns=COLUMNS, column_doc=COLUMN_DOC)
 
 
@@ -365,7 +366,12 @@ def _pile_and_cap_mates(conn, project_id: int, pile_id: int) -> list:
 
 
 def flash_rechecked(marks: list[str]) -> None:
-    """Say which recorded piles changed status on the recheck that followed a change."""
+    """Say which recorded piles changed status on the recheck that followed a change (or, for a
+    recheck sent to the background, ``jobs.Queued``, that it runs and where to follow it)."""
+    if isinstance(marks, jobs.Queued):
+        flash(f"Rechecking {marks.total} recorded piles in the background (job {marks.job_id}); "
+              "the Piles screen shows its progress. Piles whose status changes get a new version to review.")
+        return
     if marks:
         flash(f"Rechecked: {len(marks)} recorded pile(s) changed status and have a new version to "
               f"review: {', '.join(marks[:20])}{' ...' if len(marks) > 20 else ''}.")

@@ -457,13 +457,21 @@ def list_page(conn: sqlite3.Connection, project_id: int, q: PageQuery) -> Page:
     if q.after is not None:
         start = next((i + 1 for i, r in enumerate(light) if r.mark == q.after), len(light))
     window = light[start:start + q.limit]
-    ids = [r.id for r in window]
+    return Page(by_ids(conn, project_id, [r.id for r in window]), len(light), start,
+                start + len(window) < len(light))
+
+
+def by_ids(conn: sqlite3.Connection, project_id: int, ids: list[int]) -> list[PileRow]:
+    """The project's piles with these ids, in the order given (ids of other projects are left out)."""
+    cursor = conn.cursor()
+    cursor.row_factory = None
     full: dict[int, PileRow] = {}
     for chunk in range(0, len(ids), 500):
-        part = ids[chunk:chunk + 500]
-        rows = cursor.execute(_SELECT + f"WHERE p.id IN ({', '.join('?' * len(part))})", part).fetchall()
+        part = list(ids[chunk:chunk + 500])
+        rows = cursor.execute(_SELECT + f"WHERE p.project_id = ? AND p.id IN ({', '.join('?' * len(part))})",
+                              [project_id] + part).fetchall()
         full.update((r[0], _pile(r)) for r in rows)
-    return Page([full[i] for i in ids], len(light), start, start + len(window) < len(light))
+    return [full[i] for i in ids if i in full]
 
 
 def summary(conn: sqlite3.Connection, project_id: int) -> dict:
