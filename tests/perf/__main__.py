@@ -43,6 +43,14 @@ TARGETS = {
     "record_5000_vs_1000": (5.5, "max", "ratio"),
     "sync_s": (60.0, "max", "s"),
     "sync_duplicates": (0, "max", "count"),
+    # issue 24: site scale (20,000 piles)
+    "piles_page_20000_ms": (300.0, "max", "ms"),
+    "piles_page_20000_kb": (300.0, "max", "KB"),
+    "bundle_20000_gzip_mb": (3.0, "max", "MB"),
+    "bundle_delta_10_kb": (50.0, "max", "KB"),
+    "project_20000_s": (6.0, "max", "s"),
+    "rules_change_20000_s": (60.0, "max", "s"),
+    "save_p95_during_ms": (200.0, "max", "ms"),
 }
 
 
