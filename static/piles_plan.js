@@ -27,7 +27,8 @@
     if (!isFinite(minE)) { minE = minN = 0; maxE = maxN = 10; }
     const w = Math.max(1, (maxE - minE) / 10), h = Math.max(1, (maxN - minN) / 10);
     const scale = Math.min((canvas.width - 20) / w, (canvas.height - 20) / h);
-    view = { e: data.origin[0] + minE / 10 - 10 / scale, n: data.origin[1] + maxN / 10 + 10 / scale, scale: scale };
+    const midE = data.origin[0] + (minE + maxE) / 20, midN = data.origin[1] + (minN + maxN) / 20;
+    view = { e: midE - canvas.width / 2 / scale, n: midN + canvas.height / 2 / scale, scale: scale }; // centred
   }
 
   function toPx(de, dn) {

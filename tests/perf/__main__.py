@@ -37,11 +37,11 @@ TARGETS = {
     "put_vs_healthz": (0.25, "min", "ratio"),
     "web_errors": (0, "max", "count"),
     "photo_ms": (300.0, "max", "ms"),
-    "photo_vs_full_decode": (None, "", "ratio"),
+    "photo_vs_full_decode": (0.8, "max", "ratio"),
     "record_1000_s": (60.0, "max", "s"),
     "record_peak_mb": (400.0, "max", "MB"),
     "record_5000_vs_1000": (5.5, "max", "ratio"),
-    "sync_s": (60.0, "max", "s"),
+    "sync_s": (25.0, "max", "s"),
     "sync_duplicates": (0, "max", "count"),
     # issue 24: site scale (20,000 piles)
     "piles_page_20000_ms": (300.0, "max", "ms"),
