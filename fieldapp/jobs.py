@@ -5,8 +5,9 @@ After the rules or a ground model change, every recorded pile they touch is rech
 name, default ``SYNC_MAX``) it is done in the request, in the change's own transaction, as it
 always was. Above it, ``recheck_upstream`` adds a ``recheck_jobs`` row in the change's transaction
 and a thread outside the request runs it (``run_job``): ``CHUNK`` piles at a time in id order,
-each chunk one ``db.write`` transaction that rechecks them and notes the progress. A save at the
-rig waits at most for one chunk. A pile's recheck reads only its own record, its ground model,
+each chunk one ``db.write`` transaction that rechecks them and notes the progress, then a pause
+of ``CHUNK_PAUSE_S`` so that saves waiting for the write lock go first. A save at the rig waits
+at most for one chunk. A pile's recheck reads only its own record, its ground model,
 its cap's positions and the rules, none of which a recheck changes, so the chunks give the same
 result as one recheck of all piles. An unfinished job (the server stopped) is taken up again
 from its last chunk by the next job of its project or by ``resume_all``.
@@ -23,7 +24,11 @@ from fieldapp.queries import piles as piles_q
 from fieldapp.queries import recheck_jobs
 
 SYNC_MAX = 2000
-CHUNK = 200
+CHUNK = 100
+# The pause after each chunk's commit. SQLite gives a waiting writer the lock only when its busy
+# handler wakes (it sleeps up to 100 ms between tries), so back-to-back chunks would starve a
+# save at the rig; a pause longer than that sleep lets every waiting save in between chunks.
+CHUNK_PAUSE_S = 0.11
 COMMIT_WAIT_S = 30.0   # how long the runner looks for the job row of a change still committing
 _running: set[int] = set()
 _lock = threading.Lock()
@@ -87,7 +92,7 @@ def _run_when_committed(app, job_id: int) -> None:
             run_job(conn, earlier.id)
 
 
-def run_job(conn, job_id: int, chunk: int = CHUNK) -> None:
+def run_job(conn, job_id: int, chunk: int = CHUNK, pause_s: float = CHUNK_PAUSE_S) -> None:
     """Run a job to its end, ``chunk`` piles to a transaction (module docstring). A job already
     being run by this process is left to it."""
     with _lock:
@@ -113,6 +118,7 @@ def run_job(conn, job_id: int, chunk: int = CHUNK) -> None:
                     moved = saving.recheck_stored(conn, job.project_id, rows, who, job.reason, job.actor)
                     done, changed, after = done + len(ids), changed + len(moved), ids[-1]
                     recheck_jobs.progress(conn, job_id, done=done, changed=changed, after_pile_id=after)
+                time.sleep(pause_s)
         except Exception as exc:  # noqa: BLE001 - the job row says what stopped it
             with db.write(conn):
                 recheck_jobs.finish(conn, job_id, "failed", f"{type(exc).__name__}: {exc}")
