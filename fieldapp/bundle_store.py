@@ -121,8 +121,9 @@ def _store(folder: Path, key: str, head: str, seq: int, data: dict) -> Stored:
     return Stored(key, head, seq, digest, gz)
 
 
-def _patched(conn, project, folder: Path, seq: int, head: str) -> dict | None:
-    """The bundle at ``head`` made from the newest kept one by the record saves since, or None."""
+def _patched(conn, project, folder: Path, seq: int, head: str) -> tuple[dict, str, dict] | None:
+    """(bundle at ``head``, key of the kept bundle it was made from, the delta between them):
+    the newest kept bundle patched for the record saves since; None when it cannot be."""
     for kept_seq, kept_key in _kept(folder)[:1]:
         if kept_seq >= seq:
             return None
@@ -136,9 +137,15 @@ def _patched(conn, project, folder: Path, seq: int, head: str) -> dict | None:
             return None
         marks = {e["subject"] for e in entries if e["action"] in _ROW_ACTIONS}
         data = patch_bundle(conn, project, json.loads(base.body()), marks)
-        if data is not None:
-            data["head"] = head
-        return data
+        if data is None:
+            return None
+        data["head"] = head
+        # the delta from the kept bundle is these piles alone: kept now, without a comparison
+        quick = {"format": data["format"], "delta": True, "since": base.head, "head": head,
+                 "piles": {m: data["piles"][m] for m in sorted(marks)},
+                 **{name: {} for name in KEYED_PARTS if name != "piles"},
+                 **{name + "_removed": [] for name in KEYED_PARTS}}
+        return data, base.key, quick
     return None
 
 
@@ -154,10 +161,13 @@ def current(conn, project, data_dir: str | Path) -> Stored:
         kept = _load(folder, key)
         if kept is not None:
             return kept
-        data = _patched(conn, project, folder, seq, head)
-        if data is None:
-            data = dict(build_bundle(conn, project), head=head)
-        return _store(folder, key, head, seq, data)
+        patched = _patched(conn, project, folder, seq, head)
+        if patched is None:
+            return _store(folder, key, head, seq, dict(build_bundle(conn, project), head=head))
+        data, base_key, quick = patched
+        stored = _store(folder, key, head, seq, data)
+        _write(folder / f"{base_key}--{key}.delta.json.gz", gzip.compress(encode(quick), compresslevel=6, mtime=0))
+        return stored
     data = dict(build_bundle(conn, project), head=head)
     body = encode(data)
     return Stored(key, head, seq, hashlib.sha256(body).hexdigest()[:32],
