@@ -304,6 +304,11 @@ def put_record(project_id: int, mark: str):
     if amendment is not None and not isinstance(amendment, dict):
         return _error(422, errors={"amendment": "must be an object with a reason"})
     conn = db.get_db()
+    earlier = records.by_client_id(conn, project.id, client_id)
+    if earlier is not None and earlier.pile_id == pile.id and _same_json(body.get("record"), earlier.record):
+        # the outbox sending a save again whose answer it lost: the first answer, with no
+        # validation or recheck (any other use of the id takes the full path, which refuses it)
+        return jsonify(earlier.answer())
     try:
         outcome = saving.save_record(conn, project.id, pile, g.user, client_id,
                                      body.get("base_version"), body.get("record"), amendment)
@@ -323,6 +328,14 @@ def put_record(project_id: int, mark: str):
         return _error(409, error="locked", message=str(exc),
                       server=current.to_dict() if current else {})
     return jsonify(outcome.answer())
+
+
+def _same_json(raw: Any, stored: dict) -> bool:
+    """Whether a record body as sent is the stored record (as JSON gives both back)."""
+    try:
+        return json.loads(json.dumps(raw, sort_keys=True)) == stored
+    except (TypeError, ValueError):
+        return False
 
 
 @bp.post("/projects/<int:project_id>/piles/<mark>/preview")

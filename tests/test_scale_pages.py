@@ -122,3 +122,22 @@ def test_a_repeated_photo_is_answered_before_its_image_is_decoded(app, client, a
     again = client.post(url, data=dict(form, file=(io.BytesIO(buf.getvalue()), "a.jpg")),
                         headers={"X-CSRFToken": auth.token()})
     assert again.status_code == 200 and again.get_json()["id"] == first.get_json()["id"]
+
+
+def test_a_repeated_record_is_answered_without_a_recheck(app, client, auth, grid, monkeypatch):
+    auth.login(grid["inspector"])
+    url = f"/api/v1/projects/{grid['pid']}/piles/P2/record"
+    body = {"client_id": str(uuid.uuid4()), "base_version": 0,
+            "record": {"progress": "boring", "platform_level": 50.0, "measured_depth": 6.0}}
+    first = client.put(url, json=body, headers={"X-CSRFToken": auth.token()})
+    assert first.status_code == 200
+
+    def no_recheck(*_args, **_kwargs):
+        raise AssertionError("a repeated save was validated and rechecked again")
+
+    monkeypatch.setattr(saving, "save_record", no_recheck)
+    again = client.put(url, json=body, headers={"X-CSRFToken": auth.token()})
+    assert again.status_code == 200 and again.get_json() == first.get_json()
+    monkeypatch.undo()
+    other = dict(body, record=dict(body["record"], measured_depth=7.0))   # the id reused: refused
+    assert client.put(url, json=other, headers={"X-CSRFToken": auth.token()}).status_code == 409
