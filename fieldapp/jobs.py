@@ -5,9 +5,11 @@ After the rules or a ground model change, every recorded pile they touch is rech
 name, default ``SYNC_MAX``) it is done in the request, in the change's own transaction, as it
 always was. Above it, ``recheck_upstream`` adds a ``recheck_jobs`` row in the change's transaction
 and a thread outside the request runs it (``run_job``): ``CHUNK`` piles at a time in id order,
-each chunk one ``db.write`` transaction that rechecks them and notes the progress, then a pause
-of ``CHUNK_PAUSE_S`` so that saves waiting for the write lock go first. A save at the rig waits
-at most for one chunk. A pile's recheck reads only its own record, its ground model,
+each chunk rechecked outside any transaction (``saving.plan_rechecks``: reads only) and then
+written in one short ``db.write`` transaction with the job's progress (``saving.store_rechecks``;
+a pile saved again meanwhile is rechecked there on its new version). The write lock is held only
+for the writes, and is free while the next chunk is rechecked, so a save at the rig waits at
+most for one chunk's writes. A pile's recheck reads only its own record, its ground model,
 its cap's positions and the rules, none of which a recheck changes, so the chunks give the same
 result as one recheck of all piles. An unfinished job (the server stopped) is taken up again
 from its last chunk by the next job of its project or by ``resume_all``.
@@ -25,10 +27,6 @@ from fieldapp.queries import recheck_jobs
 
 SYNC_MAX = 2000
 CHUNK = 100
-# The pause after each chunk's commit. SQLite gives a waiting writer the lock only when its busy
-# handler wakes (it sleeps up to 100 ms between tries), so back-to-back chunks would starve a
-# save at the rig; a pause longer than that sleep lets every waiting save in between chunks.
-CHUNK_PAUSE_S = 0.11
 COMMIT_WAIT_S = 30.0   # how long the runner looks for the job row of a change still committing
 _running: set[int] = set()
 _lock = threading.Lock()
@@ -92,7 +90,7 @@ def _run_when_committed(app, job_id: int) -> None:
             run_job(conn, earlier.id)
 
 
-def run_job(conn, job_id: int, chunk: int = CHUNK, pause_s: float = CHUNK_PAUSE_S) -> None:
+def run_job(conn, job_id: int, chunk: int = CHUNK) -> None:
     """Run a job to its end, ``chunk`` piles to a transaction (module docstring). A job already
     being run by this process is left to it."""
     with _lock:
@@ -107,18 +105,22 @@ def run_job(conn, job_id: int, chunk: int = CHUNK, pause_s: float = CHUNK_PAUSE_
         done, changed, after = job.done, job.changed, job.after_pile_id
         try:
             while True:
-                with db.write(conn):
-                    ids = recheck_jobs.next_pile_ids(conn, job, after, chunk)
-                    if not ids:
+                ids = recheck_jobs.next_pile_ids(conn, job, after, chunk)
+                if not ids:
+                    with db.write(conn):
                         recheck_jobs.progress(conn, job_id, done=done, changed=changed, after_pile_id=after,
                                               state="done")
                         recheck_jobs.finish(conn, job_id, "done")
-                        return
-                    rows = piles_q.by_ids(conn, job.project_id, ids)
-                    moved = saving.recheck_stored(conn, job.project_id, rows, who, job.reason, job.actor)
+                    return
+                planned = saving.plan_rechecks(conn, job.project_id, piles_q.by_ids(conn, job.project_id, ids))
+                with db.write(conn):
+                    left: list[int] = []
+                    moved = saving.store_rechecks(conn, job.project_id, planned, who, job.reason, job.actor, left)
+                    if left:
+                        moved += saving.recheck_stored(conn, job.project_id, piles_q.by_ids(conn, job.project_id, left),
+                                                       who, job.reason, job.actor)
                     done, changed, after = done + len(ids), changed + len(moved), ids[-1]
                     recheck_jobs.progress(conn, job_id, done=done, changed=changed, after_pile_id=after)
-                time.sleep(pause_s)
         except Exception as exc:  # noqa: BLE001 - the job row says what stopped it
             with db.write(conn):
                 recheck_jobs.finish(conn, job_id, "failed", f"{type(exc).__name__}: {exc}")

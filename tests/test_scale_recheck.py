@@ -117,3 +117,24 @@ def test_many_recorded_piles_go_to_a_background_job_with_progress(app, client, a
         assert all(v[0] == 2 and v[1] == "needs engineer" for v in _state(db.get_db(), pid).values())
     other = client.get(f"/api/v1/projects/{sites['other']}/recheck-jobs/{job.id}")
     assert other.status_code == 404
+
+
+def test_a_pile_saved_while_its_chunk_is_rechecked_is_not_overwritten(app, sites):
+    with app.app_context():
+        conn = db.get_db()
+        pid = sites["own"]
+        with db.write(conn):
+            _tighten(conn, pid)
+        planned = saving.plan_rechecks(conn, pid, piles.list_piles(conn, pid))
+        assert sorted(p.pile.mark for p in planned) == list(MARKS)
+        # the rig saves A1 again (version 2, on the tightened rules) before the chunk is written
+        engineer = users.by_email(conn, sites["engineer"])
+        row = piles.get_pile(conn, pid, "A1")
+        saving.save_record(conn, pid, row, engineer, str(uuid.uuid4()), 1,
+                           full_record(sites["facts"]["own"], "A1", notes="saved again"))
+        left: list[int] = []
+        with db.write(conn):
+            moved = saving.store_rechecks(conn, pid, planned, None, "test", "test", left)
+        assert sorted(moved) == ["A2", "B1"] and left == [row.id]
+        a1 = records.current(conn, row.id)
+        assert a1.version == 2 and a1.record["notes"] == "saved again" and a1.verdict == "needs engineer"

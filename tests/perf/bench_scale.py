@@ -148,6 +148,7 @@ def run() -> dict:
                                              None, None, N_RECORDED)
         saves: list[float] = []
         failures: list[str] = []
+        conflicts: list[str] = []
         stop = threading.Event()
 
         def saver():
@@ -162,6 +163,8 @@ def run() -> dict:
                     try:
                         saving.save_record(sconn, pid, row, engineer, str(uuid.uuid4()), row.current_version,
                                            sitegen.record_for(fact, srng))
+                    except saving.RecordConflict:
+                        conflicts.append(fact.mark)  # the job gave the pile a version meanwhile
                     except Exception:  # noqa: BLE001 - counted: a save the job kept out
                         failures.append(fact.mark)
                     saves.append(time.perf_counter() - t)
@@ -183,6 +186,7 @@ def run() -> dict:
         out["save_p95_during_ms"] = saves[max(0, int(0.95 * len(saves)) - 1)] * 1e3 if saves else float("nan")
         out["saves_during"] = len(saves)
         out["save_failures_during"] = len(failures)
+        out["save_conflicts_during"] = len(conflicts)
     return out
 
 
