@@ -267,16 +267,14 @@ def _pile_list(conn, project) -> "_CachedList":
     return out
 
 
-@bp.get("/projects/<int:project_id>/recheck-jobs/<int:job_id>")
+@bp.get("/projects/<int:project_id>/recheck-job")
 @login_required
-def recheck_job(project_id: int, job_id: int):
-    """A background recheck's progress: state (waiting, running, done, failed), total, done,
-    changed, error."""
+def recheck_job(project_id: int):
+    """The project's newest background recheck and its progress: id, state (waiting, running,
+    done, failed), reason, total, done, changed, error; {"state": null} when there was none."""
     project = project_or_404(project_id)
-    job = recheck_jobs.get(db.get_db(), job_id)
-    if job is None or job.project_id != project.id:
-        return _error(404, error="not found")
-    return jsonify(job.to_dict())
+    job = recheck_jobs.latest(db.get_db(), project.id)
+    return jsonify(job.to_dict() if job else {"state": None})
 
 
 @bp.get("/projects/<int:project_id>/piles/<mark>")

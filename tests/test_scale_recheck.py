@@ -89,6 +89,7 @@ def test_few_recorded_piles_are_rechecked_in_the_request(app, client, auth, site
     with app.app_context():
         conn = db.get_db()
         assert recheck_jobs.latest(conn, pid) is None
+    assert client.get(f"/api/v1/projects/{pid}/recheck-job").get_json() == {"state": None}
         assert all(v[0] == 2 and v[1] == "needs engineer" for v in _state(conn, pid).values())
 
 
@@ -108,15 +109,14 @@ def test_many_recorded_piles_go_to_a_background_job_with_progress(app, client, a
     deadline = time.monotonic() + 30
     body = {}
     while time.monotonic() < deadline:
-        body = client.get(f"/api/v1/projects/{pid}/recheck-jobs/{job.id}").get_json()
+        body = client.get(f"/api/v1/projects/{pid}/recheck-job").get_json()
         if body["state"] in ("done", "failed"):
             break
         time.sleep(0.05)
-    assert body["state"] == "done" and body["done"] == 3 and body["changed"] == 3, body
+    assert body["id"] == job.id and body["state"] == "done" and body["done"] == 3 and body["changed"] == 3, body
     with app.app_context():
         assert all(v[0] == 2 and v[1] == "needs engineer" for v in _state(db.get_db(), pid).values())
-    other = client.get(f"/api/v1/projects/{sites['other']}/recheck-jobs/{job.id}")
-    assert other.status_code == 404
+    assert client.get(f"/api/v1/projects/{sites['other']}/recheck-job").status_code == 404  # no member there
 
 
 def test_a_pile_saved_while_its_chunk_is_rechecked_is_not_overwritten(app, sites):
