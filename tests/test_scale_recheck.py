@@ -89,8 +89,8 @@ def test_few_recorded_piles_are_rechecked_in_the_request(app, client, auth, site
     with app.app_context():
         conn = db.get_db()
         assert recheck_jobs.latest(conn, pid) is None
-    assert client.get(f"/api/v1/projects/{pid}/recheck-job").get_json() == {"state": None}
         assert all(v[0] == 2 and v[1] == "needs engineer" for v in _state(conn, pid).values())
+    assert client.get(f"/api/v1/projects/{pid}/recheck-job").get_json() == {"state": None}
 
 
 def test_many_recorded_piles_go_to_a_background_job_with_progress(app, client, auth, sites):
