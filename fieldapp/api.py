@@ -33,6 +33,7 @@ revealed); a viewer writing 403. A body that is not JSON, or is nested too deepl
 
 from __future__ import annotations
 
+import functools
 import json
 import re
 from dataclasses import dataclass
@@ -51,7 +52,7 @@ from fieldapp import db, photos, rig_view, saving
 from fieldapp.auth import _deny, login_required, project_or_404
 from fieldapp.queries import photos as photos_q
 from fieldapp.queries import piles as piles_q
-from fieldapp.queries import audit, projects, records
+from fieldapp.queries import audit, projects, recheck_jobs, records
 from fieldapp.record_input import RecordInvalid
 
 bp = Blueprint("api", __name__, url_prefix="/api/v1")
@@ -139,13 +140,58 @@ def list_projects():
     return jsonify({"projects": [{"id": p.id, "name": p.name, "site": p.site} for p in items]})
 
 
+PAGE_LIMIT_MAX = 5000
+
+
+def _paging(args) -> tuple[int, int, str | None] | dict:
+    """(limit, offset, after) from ``limit``, ``page`` (from 1) and ``after`` (a mark), or a
+    dict of errors naming the field and its range."""
+    errors = {}
+    limit_text = args.get("limit", "500")
+    limit = int(limit_text) if limit_text.isdigit() else 0
+    if not 1 <= limit <= PAGE_LIMIT_MAX:
+        errors["limit"] = f"must be a whole number from 1 to {PAGE_LIMIT_MAX}, got {limit_text!r}"
+    page_text = args.get("page", "1")
+    page = int(page_text) if page_text.isdigit() else 0
+    if page < 1:
+        errors["page"] = f"must be a whole number from 1, got {page_text!r}"
+    if errors:
+        return errors
+    return limit, (page - 1) * limit, args.get("after")
+
+
 @bp.get("/projects/<int:project_id>/piles")
 @login_required
 def list_piles(project_id: int):
-    """The schedule of a project with progress, verdict and record version."""
+    """The schedule of a project with progress, verdict and record version.
+
+    Without ``page``, ``after`` or ``limit`` the whole schedule (as before paging). With any of
+    them, one page in natural order of mark: ``limit`` piles (1 to 5,000, default 500), from
+    ``page`` (1 = the first) or from the pile after the mark ``after``; the answer adds
+    ``page`` {limit, offset, total, next_after, next_page} (null at the end). Each answer has an
+    ETag of the audit head and the window, so an unchanged page answers 304.
+    """
     project = project_or_404(project_id)
-    payload, token = _pile_list(db.get_db(), project)
-    etag = f"list-{project.id}-{token[:40]}"
+    cached = _pile_list(db.get_db(), project)
+    token = cached.token
+    window = ""
+    payload = cached.payload
+    if any(k in request.args for k in ("page", "after", "limit")):
+        paging = _paging(request.args)
+        if isinstance(paging, dict):
+            return _error(422, errors=paging)
+        limit, offset, after = paging
+        if after is not None:
+            offset = cached.index[after] + 1 if after in cached.index else len(cached.marks)
+        marks = cached.marks[offset:offset + limit]
+        end = offset + len(marks)
+        more = end < len(cached.marks)
+        window = f"-{offset}-{limit}"
+        payload = _encode(project, [cached.rows[m] for m in marks], {
+            "limit": limit, "offset": offset, "total": len(cached.marks),
+            "next_after": marks[-1] if more and marks else None,
+            "next_page": (offset // limit) + 2 if more and offset % limit == 0 else None})
+    etag = f"list-{project.id}-{token[:40]}{window}"
     if token != audit.GENESIS and request.if_none_match.contains(etag):
         return current_app.response_class(status=304, headers={"ETag": f'"{etag}"'})
     return current_app.response_class(payload, mimetype="application/json",
@@ -166,9 +212,16 @@ class _CachedList:
     rows: dict
     payload: bytes
 
+    @functools.cached_property
+    def index(self) -> dict[str, int]:
+        """Mark -> its place in ``marks`` (for ``?after=``)."""
+        return {m: i for i, m in enumerate(self.marks)}
 
-def _encode(project, rows: list[dict]) -> bytes:
+
+def _encode(project, rows: list[dict], page: dict | None = None) -> bytes:
     body = {"project": {"id": project.id, "name": project.name}, "piles": rows}
+    if page is not None:
+        body["page"] = page
     # orjson writes the same JSON (keys sorted as jsonify does) about 8 times faster; the
     # profile of the web benchmark showed the standard encoder holding the GIL for 41 % of
     # all server time.
@@ -177,8 +230,8 @@ def _encode(project, rows: list[dict]) -> bytes:
     return json.dumps(body, sort_keys=True).encode()
 
 
-def _pile_list(conn, project) -> tuple[bytes, str]:
-    """The encoded pile list and the audit head hash it stands for.
+def _pile_list(conn, project) -> "_CachedList":
+    """The encoded pile list, its rows and the audit head hash it stands for.
 
     Every change the list shows appends to the project's audit chain in its own transaction,
     so the head names the list's state. The list (0.9 MB for 2,000 piles) is kept per project;
@@ -190,7 +243,7 @@ def _pile_list(conn, project) -> tuple[bytes, str]:
     cached = cache.get(project.id)
     if cached is not None and token != audit.GENESIS:
         if cached.token == token:
-            return cached.payload, token
+            return cached
         entries = audit.entries_after(conn, project.id, cached.seq) if seq > cached.seq else []
         if (entries and entries[0]["prev_hash"] == cached.token and entries[-1]["hash"] == token
                 and all(e["action"] in _ROW_ACTIONS | _NO_ROW_ACTIONS for e in entries)):
@@ -203,14 +256,25 @@ def _pile_list(conn, project) -> tuple[bytes, str]:
             else:
                 payload = _encode(project, [rows[m] for m in cached.marks])
                 cache[project.id] = _CachedList(token, seq, cached.marks, rows, payload)
-                return payload, token
+                return cache[project.id]
     piles = piles_q.list_piles(conn, project.id)
     rows = {p.mark: pile_summary(p) for p in piles}
     marks = tuple(p.mark for p in piles)
     payload = _encode(project, [rows[m] for m in marks])
+    out = _CachedList(token, seq, marks, rows, payload)
     if token != audit.GENESIS:
-        cache[project.id] = _CachedList(token, seq, marks, rows, payload)
-    return payload, token
+        cache[project.id] = out
+    return out
+
+
+@bp.get("/projects/<int:project_id>/recheck-job")
+@login_required
+def recheck_job(project_id: int):
+    """The project's newest background recheck and its progress: id, state (waiting, running,
+    done, failed), reason, total, done, changed, error; {"state": null} when there was none."""
+    project = project_or_404(project_id)
+    job = recheck_jobs.latest(db.get_db(), project.id)
+    return jsonify(job.to_dict() if job else {"state": None})
 
 
 @bp.get("/projects/<int:project_id>/piles/<mark>")
@@ -238,6 +302,11 @@ def put_record(project_id: int, mark: str):
     if amendment is not None and not isinstance(amendment, dict):
         return _error(422, errors={"amendment": "must be an object with a reason"})
     conn = db.get_db()
+    earlier = records.by_client_id(conn, project.id, client_id)
+    if earlier is not None and earlier.pile_id == pile.id and _same_json(body.get("record"), earlier.record):
+        # the outbox sending a save again whose answer it lost: the first answer, with no
+        # validation or recheck (any other use of the id takes the full path, which refuses it)
+        return jsonify(earlier.answer())
     try:
         outcome = saving.save_record(conn, project.id, pile, g.user, client_id,
                                      body.get("base_version"), body.get("record"), amendment)
@@ -257,6 +326,14 @@ def put_record(project_id: int, mark: str):
         return _error(409, error="locked", message=str(exc),
                       server=current.to_dict() if current else {})
     return jsonify(outcome.answer())
+
+
+def _same_json(raw: Any, stored: dict) -> bool:
+    """Whether a record body as sent is the stored record (as JSON gives both back)."""
+    try:
+        return json.loads(json.dumps(raw, sort_keys=True)) == stored
+    except (TypeError, ValueError):
+        return False
 
 
 @bp.post("/projects/<int:project_id>/piles/<mark>/preview")

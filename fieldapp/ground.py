@@ -7,10 +7,10 @@ it shows offline and prints.
 
 from __future__ import annotations
 
-from flask import Blueprint, abort, flash, g, redirect, render_template, request, url_for
+from flask import Blueprint, abort, current_app, flash, g, redirect, render_template, request, url_for
 from markupsafe import Markup, escape
 
-from fieldapp import db, pile_inputs, saving
+from fieldapp import db, jobs, pile_inputs
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.forms import GroundModelForm, fmt_number
 from fieldapp.piles import flash_rechecked
@@ -173,9 +173,10 @@ def _save(project, model: GroundModelRow | None):
                 audit.append(conn, project.id, g.user.email, "ground model saved", name, {
                     "ground_model_id": model_id, "new": model is None,
                     "water_level_m": form.water_level_m.data, "layers": layers})
-                moved = saving.recheck_stored(
-                    conn, project.id, piles_q.list_piles(conn, project.id, ground_model_id=model_id),
-                    g.user, f"rechecked on ground model {name} as changed")
+                moved = jobs.recheck_upstream(
+                    conn, current_app._get_current_object(), project.id,
+                    piles_q.list_piles(conn, project.id, ground_model_id=model_id),
+                    g.user, f"rechecked on ground model {name} as changed", ground_model_id=model_id)
         except ValueError as exc:
             form.name.errors.append(str(exc))
         else:

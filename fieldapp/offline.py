@@ -28,9 +28,8 @@ import qrcode.image.svg
 from flask import Blueprint, Response, abort, current_app, render_template, request, url_for
 from markupsafe import Markup
 
-from fieldapp import db, https
+from fieldapp import bundle_store, db, https
 from fieldapp.auth import login_required, project_or_404
-from fieldapp.rig_view import build_bundle
 
 bp = Blueprint("offline", __name__)
 
@@ -133,23 +132,35 @@ def _etag_matches(header: str | None, etags: tuple[str, ...]) -> bool:
 def bundle(project_id: int):
     """The project's offline bundle (members only) with a strong ETag; 304 when unchanged.
 
-    Sent gzip-compressed when the client accepts it (a 5,000-pile bundle is about 3.5 MB of
-    JSON and 0.2 MB compressed); the compressed form has its own ETag (``"<hash>-gz"``), as a
-    strong validator must differ between content codings.
+    Kept on disk per audit head (``fieldapp.bundle_store``), so an unchanged bundle is read,
+    not built. ``?since=<head>`` (the ``head`` of the bundle the tablet holds) answers only what
+    changed since (``"delta": true``), or the whole bundle when that head is no longer kept.
+    Sent gzip-compressed when the client accepts it; the compressed form has its own ETag
+    (``"<hash>-gz"``), as a strong validator must differ between content codings.
     """
     project = project_or_404(project_id)
-    data = build_bundle(db.get_db(), project)
-    body = json.dumps(data, separators=(",", ":"), sort_keys=True, allow_nan=False).encode()
-    digest = hashlib.sha256(body).hexdigest()[:32]
+    conn = db.get_db()
+    data_dir = current_app.config["DATA_DIR"]
     gz = request.accept_encodings["gzip"] > 0
+    since = request.args.get("since", "")
+    if since:
+        delta = bundle_store.delta(conn, project, data_dir, since)
+        if delta is not None:
+            headers = {"Cache-Control": "private, no-cache", "Vary": "Cookie, Accept-Encoding"}
+            if gz:
+                headers["Content-Encoding"] = "gzip"
+                return Response(delta, mimetype="application/json", headers=headers)
+            return Response(gzip.decompress(delta), mimetype="application/json", headers=headers)
+    stored = bundle_store.current(conn, project, data_dir)
+    digest = stored.digest
     etag = f'"{digest}-gz"' if gz else f'"{digest}"'
     headers = {"ETag": etag, "Cache-Control": "private, no-cache", "Vary": "Cookie, Accept-Encoding"}
     if _etag_matches(request.headers.get("If-None-Match"), (f'"{digest}"', f'"{digest}-gz"')):
         return Response(status=304, headers=headers)
     if gz:
         headers["Content-Encoding"] = "gzip"
-        body = gzip.compress(body, compresslevel=5, mtime=0)
-    return Response(body, mimetype="application/json", headers=headers)
+        return Response(stored.gz, mimetype="application/json", headers=headers)
+    return Response(stored.body(), mimetype="application/json", headers=headers)
 
 
 # --------------------------------------------------------------------------------------------

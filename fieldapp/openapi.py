@@ -105,6 +105,10 @@ def document() -> dict:
                 "summary": "the schedule with design values, progress, verdict and version",
                 "parameters": [PROJECT_ID],
                 "responses": {"200": _json({"type": "object"}, "piles"), **DENIED}}},
+            "/api/v1/projects/{project_id}/recheck-job": {"get": {
+                "summary": "the newest background recheck and its progress (state null when none)",
+                "parameters": [PROJECT_ID],
+                "responses": {"200": _json({"type": "object"}, "the job"), **DENIED}}},
             "/api/v1/projects/{project_id}/bundle": {"get": {
                 "summary": "everything the tablet needs offline for one project (ETag)",
                 "parameters": [PROJECT_ID],

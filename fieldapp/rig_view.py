@@ -305,6 +305,34 @@ def build_bundle(conn: sqlite3.Connection, project) -> dict:
     }
 
 
+def patch_bundle(conn: sqlite3.Connection, project, base: dict, marks) -> dict | None:
+    """``base`` (a bundle as ``build_bundle`` made it, read back from JSON) with the entries of
+    ``marks`` made again from the database: the bundle after record saves and rechecks of those
+    piles, which change no design, curve, ground model or rules. None when that cannot be so
+    (the rules version moved, a mark or its ground model is not in ``base``): build it whole.
+    """
+    rule_set = projects.current_rules(conn, project.id)
+    if rule_set.version != base.get("rules_version"):
+        return None
+    out = dict(base, piles=dict(base["piles"]))
+    models: dict[int, GroundModel] = {}
+    for mark in sorted(marks):
+        row = piles_q.get_pile(conn, project.id, mark)
+        gkey = str(row.ground_model_id) if row is not None else ""
+        if row is None or mark not in base["piles"] or gkey not in base["ground_models"]:
+            return None
+        if row.ground_model_id not in models:
+            models[row.ground_model_id] = load_ground(conn, row.ground_model_id)
+        design = pile_design(row)
+        version = records.current(conn, row.id)
+        _, error, required = _curve_and_toe(design, models[row.ground_model_id], rule_set.rules, version)
+        entry = pile_entry(project.id, row, design, version, rule_set.version, base["piles"][mark]["curve"],
+                           error, required)
+        entry.update(ground=gkey, ground_model=row.ground_model_name, worst_utilisation=row.worst_utilisation)
+        out["piles"][mark] = entry
+    return out
+
+
 RIG_KEYS = ("mark", "project_id", "version", "progress", "verdict", "design", "record", "result",
             "load_kn", "curve", "curve_error", "required_toe_level", "rules_version", "limits",
             "ground_top", "ground_bottom", "layers")

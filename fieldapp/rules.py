@@ -8,9 +8,9 @@ record names the version it was checked with) and an audit entry "rules changed"
 from __future__ import annotations
 
 from design_core import Rules
-from flask import Blueprint, flash, g, redirect, render_template, request, url_for
+from flask import Blueprint, current_app, flash, g, redirect, render_template, request, url_for
 
-from fieldapp import db, saving
+from fieldapp import db, jobs
 from fieldapp.auth import engineer_required, login_required, project_or_404
 from fieldapp.forms import RULE_NAMES, RulesForm
 from fieldapp.piles import flash_rechecked
@@ -81,8 +81,9 @@ def edit(project_id):
                 audit.append(conn, project_id, g.user.email, "rules changed", f"version {version}",
                              {"version": version, "from_version": current.version, "note": note,
                               "changed": changed})
-                moved = saving.recheck_stored(conn, project_id, piles.list_piles(conn, project_id),
-                                                g.user, f"rechecked with rules version {version}")
+                moved = jobs.recheck_upstream(conn, current_app._get_current_object(), project_id,
+                                              piles.list_piles(conn, project_id), g.user,
+                                              f"rechecked with rules version {version}")
             flash(f"Rules saved as version {version}.")
             flash_rechecked(moved)
             return redirect(url_for("rules.show", project_id=project_id))

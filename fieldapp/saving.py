@@ -290,12 +290,31 @@ def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, r
     keep their version (their stored figures are those of their own save). Runs inside the
     caller's transaction. ``user`` may be None (the command line); ``actor`` then names who
     acted in the audit trail. Returns the marks given a new version.
+
+    The same as ``store_rechecks(conn, project_id, plan_rechecks(conn, project_id, pile_rows),
+    user, reason, actor)``; a background job makes the plan outside the write transaction.
     """
-    changed = []
-    actor = actor or (user.label if user else "system")
+    return store_rechecks(conn, project_id, plan_rechecks(conn, project_id, pile_rows), user, reason, actor)
+
+
+@dataclass(frozen=True)
+class PlannedRecheck:
+    """A recorded pile whose recheck changed a status: what ``store_rechecks`` writes, and the
+    version it was made on (it is written only while that is still the pile's current one)."""
+
+    pile: Any
+    current: records.RecordVersion
+    inputs: RecheckInputs
+    verdict: PileVerdict
+    checks: list[dict]
+
+
+def plan_rechecks(conn: sqlite3.Connection, project_id: int, pile_rows) -> list[PlannedRecheck]:
+    """Recheck the recorded piles of ``pile_rows`` and return those whose statuses or verdict
+    change (``recheck_stored``); reads only, writes nothing."""
+    rule_set = projects.current_rules(conn, project_id)
     # Read each ground model and cap once and recheck the batch together (design_core's
     # project recheck shares capacity curves, sections and Winkler solves between piles).
-    rule_set = projects.current_rules(conn, project_id)
     grounds: dict[int, GroundModel] = {}
     groups: dict[str, CapGroup] = {}
     batch = []
@@ -320,6 +339,7 @@ def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, r
             rule_set.rules, groups)
     except ValueError:
         verdicts = {}  # one pile the batch cannot take: recheck one by one below
+    planned = []
     for mate, current, inputs in batch:
         verdict = verdicts.get(mate.mark)
         if verdict is None:
@@ -334,6 +354,23 @@ def recheck_stored(conn: sqlite3.Connection, project_id: int, pile_rows, user, r
         # that is ok now changes nothing; one that is short or cannot be made now does.
         if (all(before.get(c["code"], True) == c["ok"] for c in checks)
                 and verdict.verdict == current.verdict):
+            continue
+        planned.append(PlannedRecheck(mate, current, inputs, verdict, checks))
+    return planned
+
+
+def store_rechecks(conn: sqlite3.Connection, project_id: int, planned: list[PlannedRecheck], user,
+                   reason: str, actor: str | None = None, left_out: list | None = None) -> list[str]:
+    """Write the planned rechecks (``recheck_stored``) inside the caller's transaction. A pile
+    given a new version since its plan was made is not written; its id goes to ``left_out``
+    (the caller rechecks it again on its new version). Returns the marks given a new version."""
+    changed = []
+    actor = actor or (user.label if user else "system")
+    for plan in planned:
+        mate, current, inputs, verdict, checks = plan.pile, plan.current, plan.inputs, plan.verdict, plan.checks
+        if records.stored_version(conn, mate.id) != current.version:
+            if left_out is not None:
+                left_out.append(mate.id)
             continue
         version = current.version + 1
         records.insert(conn, project_id=project_id, pile_id=mate.id, version=version,

@@ -341,3 +341,157 @@ def count_checked(conn: sqlite3.Connection, project_id: int) -> int:
     """How many of the project's piles already carry a verdict."""
     return conn.execute("SELECT COUNT(*) FROM piles WHERE project_id = ? AND verdict IS NOT NULL",
                         (project_id,)).fetchone()[0]
+
+
+# --------------------------------------------------------------------------------------------
+# One page of the schedule (the Piles screen and the paged pile list at any size)
+# --------------------------------------------------------------------------------------------
+
+# The column each sort key reads (besides the mark) when only the sort keys of a large
+# schedule are fetched; the key function is SORTS' own, on a light row of these attributes.
+_SORT_COLUMNS = {"mark": "p.mark", "cap": "c.mark", "type": "p.pile_type", "diameter": "p.diameter_mm",
+                 "toe": "p.toe_level_m", "compression": "p.compression_kn", "ground": "g.name",
+                 "progress": "p.progress", "verdict": "p.verdict", "utilisation": "p.worst_utilisation"}
+_SORT_ATTR = {"mark": "mark", "cap": "cap_mark", "type": "pile_type", "diameter": "diameter_mm",
+              "toe": "toe_level_m", "compression": "compression_kn", "ground": "ground_model_name",
+              "progress": "progress", "verdict": "verdict", "utilisation": "worst_utilisation"}
+
+
+@dataclass(frozen=True)
+class PageQuery:
+    """Filters, sort and window of one page of the schedule (None or '' means any).
+
+    ``mark_prefix`` a start of the mark (case-insensitive); ``rig`` the rig named in the current
+    record; ``bbox`` (min easting, min northing, max easting, max northing) in m, an area of the
+    site plan; ``offset`` and ``limit`` the window; ``after`` a mark: the page starts after it in
+    the chosen order (keyset paging; ``offset`` is then ignored).
+    """
+
+    progress: str | None = None
+    verdict: str | None = None
+    cap: str | None = None
+    ground_model_id: int | None = None
+    pile_type: str | None = None
+    search: str | None = None
+    mark_prefix: str | None = None
+    rig: str | None = None
+    bbox: tuple[float, float, float, float] | None = None
+    sort: str = "mark"
+    descending: bool = False
+    offset: int = 0
+    limit: int = 200
+    after: str | None = None
+
+
+@dataclass(frozen=True)
+class Page:
+    """One page: its rows, how many piles match in all, where it starts and whether more follow."""
+
+    rows: list[PileRow]
+    total: int
+    offset: int
+    more: bool
+
+
+class _Light:
+    __slots__ = ("id", "mark", "cap_mark", "pile_type", "diameter_mm", "toe_level_m", "compression_kn",
+                 "ground_model_name", "progress", "verdict", "worst_utilisation")
+
+
+def _like(text: str) -> str:
+    return text.lower().replace("\\", "\\\\").replace("%", "\\%").replace("_", "\\_")
+
+
+def _where(project_id: int, q: PageQuery) -> tuple[str, list]:
+    sql = " WHERE p.project_id = ?"
+    params: list = [project_id]
+    verdict = q.verdict
+    if verdict == "none":
+        sql += " AND p.verdict IS NULL"
+        verdict = None
+    for column, value in (("p.progress", q.progress), ("p.verdict", verdict), ("c.mark", q.cap),
+                          ("p.ground_model_id", q.ground_model_id), ("p.pile_type", q.pile_type)):
+        if value:
+            sql += f" AND {column} = ?"
+            params.append(value)
+    if q.search:
+        sql += " AND LOWER(p.mark) LIKE ? ESCAPE '\\'"
+        params.append(f"%{_like(q.search)}%")
+    if q.mark_prefix:
+        sql += " AND LOWER(p.mark) LIKE ? ESCAPE '\\'"
+        params.append(f"{_like(q.mark_prefix)}%")
+    if q.bbox:
+        sql += " AND p.easting_m BETWEEN ? AND ? AND p.northing_m BETWEEN ? AND ?"
+        params += [q.bbox[0], q.bbox[2], q.bbox[1], q.bbox[3]]
+    if q.rig:
+        sql += (" AND EXISTS (SELECT 1 FROM pile_records r WHERE r.pile_id = p.id"
+                " AND r.version = p.current_version AND LOWER(json_extract(r.record_json, '$.rig')) = ?)")
+        params.append(q.rig.strip().lower())
+    return sql, params
+
+
+_FROM = " FROM piles p LEFT JOIN caps c ON c.id = p.cap_id JOIN ground_models g ON g.id = p.ground_model_id"
+
+
+def list_page(conn: sqlite3.Connection, project_id: int, q: PageQuery) -> Page:
+    """One page of the project's piles, filtered and sorted as ``list_piles`` sorts them.
+
+    Only the id, mark and sort column of the matching piles are read and sorted (natural order
+    of marks, as the whole list); the full rows are then read for the page alone, so a page of
+    a 20,000-pile schedule costs a fraction of the whole list.
+    """
+    where, params = _where(project_id, q)
+    sort = q.sort if q.sort in SORTS else "mark"
+    column, attr = _SORT_COLUMNS[sort], _SORT_ATTR[sort]
+    cursor = conn.cursor()
+    cursor.row_factory = None
+    light = []
+    for pile_id, mark, value in cursor.execute(f"SELECT p.id, p.mark, {column}{_FROM}{where}", params):
+        row = _Light()
+        row.id, row.mark = pile_id, mark
+        setattr(row, attr, value)
+        light.append(row)
+    key = SORTS[sort]
+    light.sort(key=key, reverse=q.descending)
+    start = max(0, q.offset)
+    if q.after is not None:
+        start = next((i + 1 for i, r in enumerate(light) if r.mark == q.after), len(light))
+    window = light[start:start + q.limit]
+    return Page(by_ids(conn, project_id, [r.id for r in window]), len(light), start,
+                start + len(window) < len(light))
+
+
+def by_ids(conn: sqlite3.Connection, project_id: int, ids: list[int]) -> list[PileRow]:
+    """The project's piles with these ids, in the order given (ids of other projects are left out)."""
+    cursor = conn.cursor()
+    cursor.row_factory = None
+    full: dict[int, PileRow] = {}
+    for chunk in range(0, len(ids), 500):
+        part = list(ids[chunk:chunk + 500])
+        rows = cursor.execute(_SELECT + f"WHERE p.project_id = ? AND p.id IN ({', '.join('?' * len(part))})",
+                              [project_id] + part).fetchall()
+        full.update((r[0], _pile(r)) for r in rows)
+    return [full[i] for i in ids if i in full]
+
+
+def summary(conn: sqlite3.Connection, project_id: int) -> dict:
+    """Counts of the whole schedule: total, per progress, and meets design / needs engineer."""
+    out = {"total": 0, "progress": dict.fromkeys(PROGRESS, 0), "meets": 0, "needs": 0}
+    for progress, verdict, n in conn.execute(
+            "SELECT progress, verdict, COUNT(*) FROM piles WHERE project_id = ? GROUP BY progress, verdict",
+            (project_id,)).fetchall():
+        out["total"] += n
+        out["progress"][progress] = out["progress"].get(progress, 0) + n
+        if verdict == MEETS_DESIGN:
+            out["meets"] += n
+        elif verdict == NEEDS_ENGINEER:
+            out["needs"] += n
+    return out
+
+
+def plan_points(conn: sqlite3.Connection, project_id: int) -> list[tuple]:
+    """(mark, easting m, northing m, progress, verdict) of every pile, for the site plan."""
+    cursor = conn.cursor()
+    cursor.row_factory = None
+    return cursor.execute("SELECT mark, easting_m, northing_m, progress, verdict FROM piles"
+                          " WHERE project_id = ?", (project_id,)).fetchall()

@@ -2,7 +2,10 @@
 // (static/outbox/bundle.js; after queue.js, before panel.js).
 //
 // The project bundle (/api/v1/projects/<id>/bundle) is kept in IndexedDB, refreshed when
-// online with If-None-Match, so the At the rig page works with no signal; rigData puts one
+// online, so the At the rig page works with no signal. A kept bundle names the audit head it
+// stands for ("head"); the refresh asks for what changed since (?since=<head>) and applies the
+// delta (applyDelta, as fieldapp.bundle_store.apply_delta); a bundle without a head is
+// refreshed whole with If-None-Match. rigData puts one
 // pile's rig data back together from it (the same assembly as
 // fieldapp.offline.rig_data_from_bundle). The service worker is asked to keep the project's
 // rig pages, and at log-out to drop them with the bundles.
@@ -23,10 +26,12 @@
     projectId = Number(projectId);
     const row = await idbGet("bundles", projectId);
     const headers = { Accept: "application/json" };
-    if (row && row.etag) headers["If-None-Match"] = row.etag;
+    const since = row && row.data && row.data.head ? row.data.head : "";
+    if (!since && row && row.etag) headers["If-None-Match"] = row.etag;
     let response;
     try {
-      response = await fetch("/api/v1/projects/" + projectId + "/bundle",
+      response = await fetch("/api/v1/projects/" + projectId + "/bundle" +
+                             (since ? "?since=" + encodeURIComponent(since) : ""),
                              { credentials: "same-origin", cache: "no-store", headers: headers });
     } catch (err) {
       return row ? row.data : null;
@@ -37,7 +42,18 @@
       return row.data;
     }
     if (response.ok) {
-      const data = await response.json();
+      let data = await response.json();
+      if (data.delta) {
+        if (!row || !row.data || data.since !== row.data.head) return row ? row.data : null;
+        const changed = Object.keys(data.piles || {}).length;
+        data = applyDelta(row.data, data);
+        row.data = data;
+        row.checked_at = new Date().toISOString();
+        row.delta_piles = changed;
+        await idbPut("bundles", row);
+        if (changed || data.head !== since) emit("bundle", { project_id: projectId, delta: changed });
+        return data;
+      }
       await idbPut("bundles", { project_id: projectId, etag: response.headers.get("ETag"),
                                 fetched_at: new Date().toISOString(), data: data });
       emit("bundle", { project_id: projectId });
@@ -45,6 +61,21 @@
     }
     if (response.status === 401) { state.loginNeeded = true; O.renderPanel(); }
     return row ? row.data : null;
+  }
+
+  // The bundle at a delta's head: shared parts replaced when sent, keyed parts (piles, curves,
+  // ground models) changed key by key (the same as fieldapp.bundle_store.apply_delta).
+  function applyDelta(bundle, delta) {
+    const out = Object.assign({}, bundle);
+    ["format", "project", "rules_version", "rules", "limits"].forEach((k) => { if (k in delta) out[k] = delta[k]; });
+    ["piles", "curves", "ground_models"].forEach((k) => {
+      const part = Object.assign({}, bundle[k] || {});
+      (delta[k + "_removed"] || []).forEach((key) => { delete part[key]; });
+      Object.assign(part, delta[k] || {});
+      out[k] = part;
+    });
+    out.head = delta.head;
+    return out;
   }
 
   // After a save reached the server: the kept bundle learns the new version and verdict.
@@ -153,6 +184,7 @@
   // --- Shared with queue.js and panel.js ---------------------------------------------------
   Object.assign(O, {
     getBundle: getBundle, refreshBundle: refreshBundle, noteInBundle: noteInBundle, rigData: rigData,
+    applyDelta: applyDelta,
     pileOffline: pileOffline, projectIdFromUrl: projectIdFromUrl, cachePages: cachePages,
     warmProject: warmProject, hookLogout: hookLogout,
   });

@@ -41,12 +41,21 @@ TARGETS = {
     "pg_web_errors": (0, "max", "count"),
     "sqlite_2w_put_vs_healthz": (0.4, "min", "ratio"),
     "photo_ms": (300.0, "max", "ms"),
-    "photo_vs_full_decode": (None, "", "ratio"),
+    "photo_vs_full_decode": (0.8, "max", "ratio"),
     "record_1000_s": (60.0, "max", "s"),
     "record_peak_mb": (400.0, "max", "MB"),
     "record_5000_vs_1000": (5.5, "max", "ratio"),
-    "sync_s": (60.0, "max", "s"),
+    "sync_s": (25.0, "max", "s"),
     "sync_duplicates": (0, "max", "count"),
+    # issue 24: site scale (20,000 piles)
+    "piles_page_20000_ms": (300.0, "max", "ms"),
+    "piles_page_20000_kb": (300.0, "max", "KB"),
+    "bundle_20000_gzip_mb": (3.0, "max", "MB"),
+    "bundle_delta_10_kb": (50.0, "max", "KB"),
+    "project_20000_s": (6.0, "max", "s"),
+    "rules_change_20000_s": (60.0, "max", "s"),
+    "save_p95_during_ms": (200.0, "max", "ms"),
+    "save_failures_during": (0, "max", "count"),
 }
 
 
