@@ -103,7 +103,8 @@ class Doc(BaseDocTemplate):
 
     def __init__(self, filename: str, spec: PageSpec, st: Styles, **kw):
         super().__init__(filename, pagesize=PAGE, leftMargin=MARGIN, rightMargin=MARGIN, topMargin=MARGIN,
-                         bottomMargin=FOOTER_H, pageCompression=0, invariant=1, **kw)
+                         bottomMargin=FOOTER_H, pageCompression=0, invariant=1,
+                         initialFontName=REGULAR, initialFontSize=9, **kw)
         self.spec = spec
         self.caution = Paragraph(bold_caution(), st.caution)
         _, self.caution_h = self.caution.wrap(WIDTH, FOOTER_H)

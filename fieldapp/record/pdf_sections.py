@@ -18,7 +18,7 @@ from fieldapp import photos as photo_files
 from fieldapp.queries import ncr
 from fieldapp.queries import review as review_q
 from fieldapp.record import data, figures
-from fieldapp.record.pdf_layout import STATUS_RGB, WIDTH, FigureFlowable, Styles, bold_caution
+from fieldapp.record.pdf_layout import REGULAR, STATUS_RGB, WIDTH, FigureFlowable, Styles, bold_caution
 from fieldapp.record.pdf_layout import t as _t
 from fieldapp.record.words import delivery_words, local_time
 from fieldapp.record.words import n as _n
@@ -27,7 +27,8 @@ from fieldapp.record.words import plain as _plain
 SCHEDULE_ROWS_PER_TABLE = 60
 NCR_ROWS_PER_TABLE = 40
 MAX_THUMBS = 6
-GRID_STYLE = [("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
+BASE_FONT = ("FONT", (0, 0), (-1, -1), REGULAR, 6.5)     # also for empty cells (else Helvetica)
+GRID_STYLE = [BASE_FONT, ("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
               ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor("#eef1ee")), ("VALIGN", (0, 0), (-1, -1), "TOP")]
 
 
@@ -115,7 +116,7 @@ def site_plan(st: Styles, f) -> Iterator[Flowable]:
 def _kv_table(st: Styles, rows: list[list[str]], widths) -> Table:
     cells = [[Paragraph(_t(k), st.small), Paragraph(_t(v), st.body)] for k, v in rows]
     table = Table(cells, colWidths=widths)
-    table.setStyle(TableStyle([("GRID", (0, 0), (-1, -1), 0.4, colors.HexColor("#9a9a9a")),
+    table.setStyle(TableStyle([BASE_FONT, ("GRID", (0, 0), (-1, -1), 0.4, colors.HexColor("#9a9a9a")),
                                ("BACKGROUND", (0, 0), (0, -1), colors.HexColor("#eef1ee")),
                                ("VALIGN", (0, 0), (-1, -1), "TOP")]))
     return table
@@ -139,7 +140,7 @@ def schedule(st: Styles, rows: list[data.ScheduleRow]) -> Iterator[Flowable]:
     for start in range(0, max(len(rows), 1), SCHEDULE_ROWS_PER_TABLE):
         chunk = rows[start:start + SCHEDULE_ROWS_PER_TABLE]
         cells = [head]
-        style = [("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
+        style = [BASE_FONT, ("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
                  ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor("#eef1ee")),
                  ("VALIGN", (0, 0), (-1, -1), "TOP"),
                  ("FONT", (0, 1), (-1, -1), st.regular, 6.5),
@@ -210,7 +211,7 @@ def _record_table(st: Styles, sheet: data.PileSheet) -> Table:
     if rec.get("notes"):
         cells.append(["Notes", "", Paragraph(_t(rec["notes"]), st.tiny)])
     table = Table(cells, colWidths=[38 * mm, 24 * mm, 116 * mm], repeatRows=1)
-    table.setStyle(TableStyle([("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
+    table.setStyle(TableStyle([BASE_FONT, ("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
                                ("FONT", (0, 0), (-1, -1), st.regular, 6.5), ("FONT", (0, 0), (-1, 0), st.bold, 6.5),
                                ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor("#eef1ee")),
                                ("VALIGN", (0, 0), (-1, -1), "TOP"),
@@ -220,7 +221,7 @@ def _record_table(st: Styles, sheet: data.PileSheet) -> Table:
 
 def _checks_table(st: Styles, checks: list[dict]) -> Table:
     cells = [["Check", "Result", "Value", "Limit", "Util.", "Why"]]
-    style = [("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
+    style = [BASE_FONT, ("GRID", (0, 0), (-1, -1), 0.3, colors.HexColor("#9a9a9a")),
              ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor("#eef1ee")), ("VALIGN", (0, 0), (-1, -1), "TOP"),
              ("FONT", (0, 0), (-1, -1), st.regular, 6.5), ("FONT", (0, 0), (-1, 0), st.bold, 6.5),
              ("FONT", (1, 1), (1, -1), st.bold, 6.5),
@@ -276,7 +277,7 @@ def pile_sheet(st: Styles, sheet: data.PileSheet, photo_dir) -> Iterator[Flowabl
         left = [FigureFlowable(sheet.figures["checks"], width)]
         right = [FigureFlowable(sheet.figures["section"], width)]
         row = Table([[left, right]], colWidths=[width + 2 * mm, width + 2 * mm])
-        row.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 0),
+        row.setStyle(TableStyle([BASE_FONT, ("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 0),
                                  ("RIGHTPADDING", (0, 0), (-1, -1), 0)]))
         yield KeepTogether([Paragraph("Pictures (drawn from the stored version)", st.h3), row])
     if thumbs is not None:
@@ -311,7 +312,7 @@ def _thumbs(st: Styles, sheet: data.PileSheet, photo_dir) -> Table | None:
     rows = [cells[i:i + 3] for i in range(0, len(cells), 3)]
     rows[-1] += [""] * (3 - len(rows[-1]))
     table = Table(rows, colWidths=[29 * mm] * 3)
-    table.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 1)]))
+    table.setStyle(TableStyle([BASE_FONT, ("VALIGN", (0, 0), (-1, -1), "TOP"), ("LEFTPADDING", (0, 0), (-1, -1), 1)]))
     return table
 
 

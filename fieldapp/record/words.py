@@ -45,9 +45,10 @@ def zone_words(moment: datetime) -> str:
 
 
 def local_time(value: Any, with_zone: bool = True) -> str:
-    """An ISO 8601 time as '3 Dec 2026 14:05 (CET, UTC+01:00)' in this machine's local zone;
-    a time without a zone is taken as written (local) and said so; text that is not a time is
-    returned as it is."""
+    """An ISO 8601 time as '3 Dec 2026 14:05 (CET, UTC+01:00)' in this machine's local zone.
+    A time entered at the rig without a zone is local time as entered: it is printed as written,
+    with this machine's zone stated as the one taken for it. Text that is not a time is returned
+    as it is."""
     if value in (None, ""):
         return ""
     if isinstance(value, datetime):
@@ -59,7 +60,8 @@ def local_time(value: Any, with_zone: bool = True) -> str:
             return str(value)
     if moment.tzinfo is None:
         text = f"{moment.day} {moment:%b %Y %H:%M}"
-        return f"{text} (local time as entered)" if with_zone else text
+        zone = zone_words(moment.astimezone())
+        return f"{text} (local as entered, {zone})" if with_zone else text
     local = moment.astimezone()
     text = f"{local.day} {local:%b %Y %H:%M}"
     return f"{text} ({zone_words(local)})" if with_zone else text
