@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import sqlite3
 from dataclasses import dataclass
+from datetime import timezone
 from pathlib import Path
 from typing import Callable
 
@@ -57,7 +58,7 @@ def issue(database: str | Path, data_dir: str | Path, photo_dir: str | Path | No
             issue_id = record_issues.insert(
                 writer, project_id=project_id, revision=result.revision, head_seq=result.head_seq,
                 head_hash=result.head_hash, file_sha256=sha, file_name=out.name,
-                issued_at=result.issued_at.isoformat(timespec="seconds"), issued_by=issued_by, draft=result.draft,
+                issued_at=result.issued_at.astimezone(timezone.utc).isoformat(timespec="seconds"), issued_by=issued_by, draft=result.draft,
                 piles=result.piles, pages=result.pages, changes=result.changes, state=result.state)
             audit.append(writer, project_id, issued_by, "record issued", "record",
                          {"revision": result.revision, "head_seq": result.head_seq, "head_hash": result.head_hash,

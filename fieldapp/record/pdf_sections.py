@@ -17,7 +17,7 @@ from reportlab.platypus import Flowable, Image, KeepTogether, PageBreak, Paragra
 from fieldapp import photos as photo_files
 from fieldapp.queries import ncr
 from fieldapp.queries import review as review_q
-from fieldapp.record import data, figures
+from fieldapp.record import data
 from fieldapp.record.pdf_layout import REGULAR, STATUS_RGB, WIDTH, FigureFlowable, Styles, bold_caution
 from fieldapp.record.pdf_layout import t as _t
 from fieldapp.record.words import delivery_words, local_time

@@ -90,6 +90,7 @@ EXPECT: dict[str, str | tuple[str, set[int]]] = {
     "record.job_status": "member",
     "record.download": "member",
     "record.schedule": "member",
+    "record.ncr_register": "member", "record.ncr_csv": "member",
 }
 
 ALLOWED_ROLES = {
