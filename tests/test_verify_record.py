@@ -53,8 +53,10 @@ def test_one_byte_changed_is_refused(app, site, tmp_path):
     out = tmp_path / "record.pdf"
     _issue(app, site["pid"], out)
     body = bytearray(out.read_bytes())
-    at = body.index(b"(page 1 of ")
-    body[at + 6] = ord("7")                     # "page 1" becomes "page 7" on the cover
+    with app.app_context():
+        (kept,) = record_issues.for_project(db.get_db(), site["pid"])
+    at = body.index(kept.head_hash.encode())    # the audit head the file embeds, inside the signed bytes
+    body[at] = ord("0") if body[at] != ord("0") else ord("1")
     bad = tmp_path / "changed.pdf"
     bad.write_bytes(bytes(body))
     check = _verify(app, bad)

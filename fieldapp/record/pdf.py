@@ -8,7 +8,7 @@ unsigned or a non-conformance is open, the DRAFT mark (``pdf_layout.Doc``).
 
 Bounded memory at any size: the front matter, every ``PILES_PER_PART`` pile sheets and the back
 matter are each a separate reportlab document written to disk, their pile sheets read from the
-snapshot one at a time as reportlab reaches them. The parts are then joined with pypdf and the
+snapshot one at a time as reportlab reaches them. The parts are then joined with qpdf (pikepdf, see ``_join``) and the
 audit head (project, seq, hash) and revision are written into the document information, where
 the signature (``signing``) covers them. The total page count is known only once every part is
 laid out: each footer prints a fixed-width placeholder that is then written over byte for byte
@@ -29,7 +29,7 @@ from datetime import datetime
 from pathlib import Path
 from typing import Callable, Iterator
 
-from pypdf import PdfWriter
+import pikepdf
 from reportlab.platypus import Flowable, PageBreak
 
 from fieldapp.record import pdf_sections as sections
@@ -89,6 +89,28 @@ def _patch_total(path: Path, total: int) -> None:
     if len(patched) != len(body):
         raise RuntimeError("the page count did not fit its placeholder")
     path.write_bytes(patched)
+
+
+def _join(parts: list[Path], out: Path, info: dict[str, str]) -> None:
+    """Join the parts into one PDF with qpdf (pikepdf). qpdf copies a page's objects from its
+    part but reads the stream data (page content, fonts, photos) from the part's file only
+    while writing, so memory holds the structure of the pages, not their content. The page
+    streams are compressed on the way out."""
+    sources = []
+    try:
+        whole = pikepdf.new()
+        for path in parts:
+            src = pikepdf.open(path)
+            sources.append(src)
+            whole.pages.extend(src.pages)
+        for key, value in info.items():
+            whole.docinfo[pikepdf.Name(key)] = pikepdf.String(value)
+        whole.save(out, compress_streams=True, object_stream_mode=pikepdf.ObjectStreamMode.preserve,
+                   linearize=False)
+        whole.close()
+    finally:
+        for src in sources:
+            src.close()
 
 
 def build(conn: sqlite3.Connection, project_id: int, out_path: str | Path, *, photo_dir: str | Path | None = None,
@@ -164,17 +186,11 @@ def build(conn: sqlite3.Connection, project_id: int, out_path: str | Path, *, ph
         pages = nonlocal_spec[0].first_page - 1
         for path in parts:
             _patch_total(path, pages)
-        writer = PdfWriter()
-        for path in parts:
-            writer.append(str(path))
-        writer.add_metadata({"/Title": f"Certification record: {front.project.name}, revision {front.revision}",
-                             "/Author": "Toeline", "/Subject": "Pile certification record",
-                             signing.META_PROJECT: str(project_id), signing.META_SEQ: str(front.head_seq),
-                             signing.META_HASH: front.head_hash, signing.META_REVISION: str(front.revision)})
         tmp = out_path.with_name(out_path.name + ".part")
-        with open(tmp, "wb") as fh:
-            writer.write(fh)
-        writer.close()
+        _join(parts, tmp, {"/Title": f"Certification record: {front.project.name}, revision {front.revision}",
+                           "/Author": "Toeline", "/Subject": "Pile certification record",
+                           signing.META_PROJECT: str(project_id), signing.META_SEQ: str(front.head_seq),
+                           signing.META_HASH: front.head_hash, signing.META_REVISION: str(front.revision)})
         os.replace(tmp, out_path)
     finally:
         shutil.rmtree(work, ignore_errors=True)
