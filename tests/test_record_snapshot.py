@@ -109,3 +109,20 @@ def test_every_page_says_page_x_of_y_revision_and_draft(app, site, tmp_path):
         rows = [line.split() for line in fonts.splitlines()[2:] if line.strip()]
         assert rows and all(r[-5] == "yes" for r in rows), fonts          # every font embedded
         assert all("DejaVu" in r[0] for r in rows), fonts
+
+
+def test_no_draft_mark_once_every_pile_is_signed_and_no_nc_is_open(app, client, auth, people, site, tmp_path):
+    from tests.test_review import _sign, save
+
+    pid = site["pid"]
+    save(app, pid, "P3", good_record(site["piles"]["P3"]))
+    auth.login(people["engineer"])
+    for mark in ("P1", "P2", "P3", "S1"):
+        assert _sign(client, auth, pid, mark, "accepted", "reviewed").status_code == 200, mark
+    out = tmp_path / "r.pdf"
+    result = issue.issue(app.config["DATABASE"], app.config["DATA_DIR"], None, pid, out)
+    assert not result.build.draft
+    pages = _pages(out)
+    assert all("revision 0 (issued)" in page and "DRAFT" not in page for page in pages)
+    assert "Certificate of the piles as built — revision 0 (ISSUED)" in pages[0]
+    assert "Engineer of record T. Engineer — role: engineer of record" in pages[0]
