@@ -23,7 +23,7 @@ from fieldapp import db, saving
 from fieldapp.queries import audit, projects, records, users
 from fieldapp.queries import piles as piles_q
 from fieldapp.record import issue, pdf
-from tests.test_review import build_site, good_record
+from tests.test_review import _sign, build_site, good_record, save
 
 
 @pytest.fixture
@@ -112,8 +112,6 @@ def test_every_page_says_page_x_of_y_revision_and_draft(app, site, tmp_path):
 
 
 def test_no_draft_mark_once_every_pile_is_signed_and_no_nc_is_open(app, client, auth, people, site, tmp_path):
-    from tests.test_review import _sign, save
-
     pid = site["pid"]
     save(app, pid, "P3", good_record(site["piles"]["P3"]))
     auth.login(people["engineer"])

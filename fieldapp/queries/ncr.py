@@ -74,7 +74,7 @@ def _versions(conn, project_id):
     return conn.execute(
         "SELECT r.pile_id, p.mark, r.version, r.progress, r.checks_json, r.created_at "
         "FROM pile_records r JOIN piles p ON p.id = r.pile_id WHERE r.project_id = ? "
-        "ORDER BY r.pile_id, r.version", (project_id,)).fetchall()
+        "ORDER BY r.pile_id, r.version", (project_id,))      # a cursor: one version at a time
 
 
 def _signoffs(conn, project_id):

@@ -11,6 +11,9 @@ from __future__ import annotations
 import json
 import sqlite3
 from dataclasses import dataclass
+from typing import Iterator
+
+from fieldapp.queries import records
 
 
 @dataclass(frozen=True)
@@ -68,3 +71,13 @@ def insert(conn: sqlite3.Connection, *, project_id: int, revision: int, head_seq
         (project_id, revision, head_seq, head_hash, file_sha256, file_name, issued_at, issued_by, int(draft),
          piles, pages, changes, json.dumps(state, sort_keys=True, separators=(",", ":"))))
     return cur.lastrowid
+
+
+def current_versions(conn: sqlite3.Connection, project_id: int) -> Iterator[records.RecordVersion]:
+    """The newest version of every recorded pile, one at a time from the cursor (a record build
+    of 20,000 piles needs each only for its schedule row, never all of them at once)."""
+    cursor = conn.execute(
+        records._SELECT + "JOIN piles p ON p.id = r.pile_id AND p.current_version = r.version "
+        "WHERE r.project_id = ?", (project_id,))
+    for row in cursor:
+        yield records._version(row)

@@ -109,14 +109,19 @@ def front(conn: sqlite3.Connection, project_id: int, issued_by: str, issued_role
     seq, head = audit.head(conn, project_id)
     chain = audit.verify_chain(conn, project_id)
     statuses = review_q.pile_statuses(conn, project_id)
-    currents = records.current_for_project(conn, project_id)
-    rows = [data.schedule_row(s, currents.get(s.id)) for s in statuses]
+    by_id = {s.id: s for s in statuses}
+    rows_by_id: dict[int, data.ScheduleRow] = {}
     positions = {}
-    for pile_id, rec in currents.items():
+    for rec in record_issues.current_versions(conn, project_id):
+        status = by_id.get(rec.pile_id)
+        if status is None:
+            continue
+        rows_by_id[rec.pile_id] = data.schedule_row(status, rec)
         e, n = rec.record.get("easting"), rec.record.get("northing")
         if e is not None and n is not None:
-            positions[pile_id] = (e, n)
-    del currents
+            positions[rec.pile_id] = (e, n)
+    rows = [rows_by_id.get(s.id) or data.schedule_row(s, None) for s in statuses]
+    del rows_by_id
     register = ncr.register(conn, project_id)
     issues = record_issues.for_project(conn, project_id)
     current_rules = projects.current_rules(conn, project_id)
