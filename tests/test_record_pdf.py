@@ -65,12 +65,13 @@ def test_pdf_holds_every_mark_verdict_head_hash_and_the_caution(app, client, aut
     assert head in text
     caution = _words(CAUTION)
     assert all(caution in page for page in pages), "the caution is on every page"
-    assert "Unsigned piles: 3" in text                   # P1, S1 unsigned, P3 not recorded
+    assert "Unsigned (not recorded, or current version not signed) 3" in text   # P1, S1 unsigned, P3 not recorded
     assert "Disposition: remedial 1" in text
     assert "Non-conformance register" in text and "Extend the toe by 5 m" in text
     assert "Spacer <b>loose</b> & fixed" in text          # user text shown as typed, not as markup
     assert "Rule set version 1" in text
-    assert "Cap C1 in plan" in text and "Capacity against toe level" in text
+    # the pictures are drawn from the stored version (no recheck): its checks and its levels
+    assert "Stored checks: utilisation" in text and "As built in section" in text
 
 
 def test_pdftotext_reads_the_same(app, site, tmp_path):
@@ -141,7 +142,7 @@ def test_background_build_is_found_again_after_a_reload(app, client, auth, peopl
     assert body["status"] == "done", body
     assert body["percent"] == 100 and body["done"] == body["total"] == 4
     with app.app_context():
-        built = [e for e in audit.entries(db.get_db(), pid) if e["action"] == "record built"]
+        built = [e for e in audit.entries(db.get_db(), pid) if e["action"] == "record issued"]
     assert len(built) == 1 and body["head_hash"] in built[0]["payload_json"]   # the chain keeps it
     assert built[0]["actor"] == "Viewer"
     pdf_bytes = other.get(body["download"])
@@ -198,8 +199,12 @@ def test_asbuilt_schedule_csv_and_xlsx(app, client, auth, people, site):
     xlsx = client.get(f"/projects/{site['pid']}/record/schedule.xlsx")
     sheet = load_workbook(io.BytesIO(xlsx.data)).active
     rows = list(sheet.iter_rows(values_only=True))
-    assert rows[0][0] == "mark" and len(rows) == 5
-    assert {r[0] for r in rows[1:]} == {"P1", "P2", "P3", "S1"}
+    assert rows[0][0] == "mark"
+    assert {r[0] for r in rows[1:5]} == {"P1", "P2", "P3", "S1"}
+    # below the rows: the record revision the schedule belongs to, and the safety caution
+    trailer = {r[0]: r[1] for r in rows[5:] if r and r[0]}
+    assert trailer["caution"] == CAUTION and trailer["record revision"].startswith("no record issued yet")
+    assert lines[-1].endswith(CAUTION) or CAUTION in csv_text
 
 
 def test_csv_defuses_formula_text():
@@ -214,7 +219,7 @@ def test_record_command_writes_pdf_and_schedule(app, site, tmp_path):
     out = tmp_path / "r.pdf"
     result = runner.invoke(main, ["--data", app.config["DATA_DIR"], "record", str(site["pid"]), str(out)])
     assert result.exit_code == 0, result.output
-    assert out.read_bytes().startswith(b"%PDF") and "audit head hash" in result.output
+    assert out.read_bytes().startswith(b"%PDF") and "audit head seq" in result.output
     csv_out = tmp_path / "s.csv"
     result = runner.invoke(main, ["--data", app.config["DATA_DIR"], "record", str(site["pid"]), str(csv_out)])
     assert result.exit_code == 0 and csv_out.read_text().startswith("mark,")

@@ -73,8 +73,10 @@ def _shares_by_mark(details: dict[str, Any], group: Any) -> dict[str, float]:
 
 
 def pile_figures(conn: sqlite3.Connection, project_id: int, pile, record: dict[str, Any]) -> dict[str, drawings.Figure]:
-    """The three pictures of one pile from a recheck of its record (``capacity``,
-    ``interaction``, ``plan``). Raises ValueError when the recheck cannot run."""
+    """The three pictures of one pile for the Review screen, from a recheck of its record on
+    today's inputs (``capacity``, ``interaction``, ``plan``). The certification record does not
+    use them: its sheets are drawn from the stored version alone (``fieldapp.record.snapshot``).
+    Raises ValueError when the recheck cannot run."""
     inputs = load_inputs(conn, project_id, pile, record)
     verdict = recheck_pile(conn, project_id, pile, record, inputs)
     details = verdict.details or {}
@@ -155,17 +157,12 @@ def pile_sheet(conn: sqlite3.Connection, project_id: int, status: review_q.PileS
     return sheet
 
 
-def site_plan(statuses: list[review_q.PileStatus], currents: dict[int, records.RecordVersion],
+def site_plan(statuses: list[review_q.PileStatus], positions: dict[int, tuple[float, float]],
               width: float = 760, height: float = 520) -> drawings.Figure:
-    """Every pile coloured by status, with deviation arrows (positions from the current records)."""
-    plan = []
-    for s in statuses:
-        rec = currents.get(s.id)
-        xy = None
-        if rec is not None and rec.record.get("easting") is not None and rec.record.get("northing") is not None:
-            xy = (rec.record["easting"], rec.record["northing"])
-        plan.append(plan_figures.PlanPile(s.mark, (s.easting_m, s.northing_m), xy, s.diameter_mm / 1000.0,
-                                      status=s.status))
+    """Every pile coloured by status, with deviation arrows (``positions``: {pile id: as-built
+    (easting, northing) of its current record})."""
+    plan = [plan_figures.PlanPile(s.mark, (s.easting_m, s.northing_m), positions.get(s.id), s.diameter_mm / 1000.0,
+                                  status=s.status) for s in statuses]
     return plan_figures.site_plan_figure(plan, width, height)
 
 

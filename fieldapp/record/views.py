@@ -5,37 +5,42 @@ Routes
 ------
 * ``GET  /projects/<id>/record`` (``record.overview``): counts, the newest build with a progress
   bar (``static/record.js`` polls the JSON below), download links.
-* ``POST /projects/<id>/record/builds``: start a build (a thread) unless one is running; its
-  progress is stored in ``record_jobs``, so a reload, another tab or another person sees it.
+* ``POST /projects/<id>/record/builds``: start a build (a child process,
+  ``fieldapp.record.worker``) unless one is running; its progress is stored in ``record_jobs``,
+  so a reload, another tab or another person sees it. Each build is an issue: a new revision,
+  signed, kept in ``record_issues``.
 * ``GET  /projects/<id>/record/builds/<job_id>``: JSON ``{"id", "status", "done", "total",
   "percent", "error", "head_hash", "download"}``.
 * ``GET  /projects/<id>/record/builds/<job_id>/pdf``: the finished PDF.
 * ``GET  /projects/<id>/record/schedule.<csv|xlsx>``: the as-built schedule.
+* ``GET  /projects/<id>/ncr`` (``record.ncr``) and ``/projects/<id>/ncr.csv``: the
+  non-conformance register on its own screen and as CSV.
 
 Every member of the project may build and download (the certifier reads the record too).
 """
 
 from __future__ import annotations
 
+import subprocess
+import sys
 import threading
-import time
 from datetime import datetime, timedelta, timezone
 from pathlib import Path
 
-from flask import Blueprint, Response, abort, current_app, g, jsonify, redirect, render_template, send_file, url_for
+from flask import Blueprint, Response, abort, current_app, jsonify, redirect, render_template, send_file, url_for
+from flask import g
 from flask_wtf import FlaskForm
 
-from fieldapp import db, drawings
+from fieldapp import CAUTION, db, drawings
 from fieldapp.auth import login_required, project_or_404
-from fieldapp.queries import audit, users
+from fieldapp.queries import ncr, record_issues
 from fieldapp.queries import review as review_q
-from fieldapp.record import export, pdf
+from fieldapp.record import export
 
 bp = Blueprint("record", __name__)
 
 STALE_AFTER_S = 600          # a running build not heard of for this long has lost its worker
-PROGRESS_EVERY_S = 0.5       # write progress at most this often (and at the end)
-_running: dict[int, threading.Thread] = {}
+_running: dict[int, subprocess.Popen] = {}
 _lock = threading.Lock()
 
 
@@ -55,7 +60,8 @@ def _stale(job: review_q.RecordJob) -> bool:
     if job.status not in ("queued", "running"):
         return False
     with _lock:
-        alive = job.id in _running and _running[job.id].is_alive()
+        worker = _running.get(job.id)
+        alive = worker is not None and worker.poll() is None
     if alive:
         return False
     try:
@@ -74,47 +80,6 @@ def _fresh(conn, project_id: int, job: review_q.RecordJob | None) -> review_q.Re
     return job
 
 
-def run_build(app, project_id: int, job_id: int) -> None:
-    """The worker: build the PDF on its own connection, storing progress as it goes."""
-    conn = db.connect(app.config["DATABASE"])
-    try:
-        last = [0.0]
-
-        def progress(done: int, total: int) -> None:
-            now = time.monotonic()
-            if now - last[0] >= PROGRESS_EVERY_S or done == total:
-                last[0] = now
-                with db.write(conn):
-                    review_q.update_job(conn, job_id, done=done, total=total)
-
-        out = Path(app.config["DATA_DIR"]) / "records" / f"project-{project_id}-record-{job_id}.pdf"
-        total = len(review_q.pile_statuses(conn, project_id))
-        with db.write(conn):
-            review_q.update_job(conn, job_id, status="running", total=total, done=0)
-        result = pdf.build(conn, project_id, out, photo_dir=app.config["PHOTO_DIR"], progress=progress)
-        with db.write(conn):
-            review_q.update_job(conn, job_id, status="done", done=result.piles, total=result.piles, path=str(out),
-                                head_hash=result.head_hash, size_bytes=out.stat().st_size,
-                                finished_at=audit.now_iso())
-            # the chain itself remembers which head hash a record printed
-            job = review_q.get_job(conn, project_id, job_id)
-            starter = users.by_id(conn, job.started_by) if job and job.started_by else None
-            audit.append(conn, project_id, starter.label if starter else "record", "record built", "record",
-                         {"job": job_id, "head_hash": result.head_hash, "pages": result.pages,
-                          "piles": result.piles})
-    except Exception as exc:  # the build failed: say so on the screen, never leave it "running"
-        try:
-            with db.write(conn):
-                review_q.update_job(conn, job_id, status="failed", error=f"{type(exc).__name__}: {exc}"[:500],
-                                    finished_at=audit.now_iso())
-        except Exception:
-            pass
-    finally:
-        conn.close()
-        with _lock:
-            _running.pop(job_id, None)
-
-
 def start_build(project_id: int, user_id: int | None) -> tuple[review_q.RecordJob, bool]:
     """Start a build unless one is under way; returns (job, started)."""
     conn = db.get_db()
@@ -125,13 +90,16 @@ def start_build(project_id: int, user_id: int | None) -> tuple[review_q.RecordJo
         if active is not None:
             review_q.mark_job_stalled(conn, active.id, "the server stopped during the build: start it again")
         job_id = review_q.create_job(conn, project_id, user_id, len(review_q.pile_statuses(conn, project_id)))
-    _records_dir()
-    app = current_app._get_current_object()
-    thread = threading.Thread(target=run_build, args=(app, project_id, job_id), name=f"record-{job_id}",
-                              daemon=True)
+    out = _records_dir() / f"project-{project_id}-record-{job_id}.pdf"
+    config = current_app.config
+    worker = subprocess.Popen(
+        [sys.executable, "-m", "fieldapp.record.worker", str(config["DATABASE"]), str(config["DATA_DIR"]),
+         str(config["PHOTO_DIR"]), str(project_id), str(job_id), str(out)],
+        stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, close_fds=True)
     with _lock:
-        _running[job_id] = thread
-    thread.start()
+        for old in [k for k, p in _running.items() if p.poll() is not None]:
+            _running.pop(old)       # reaped
+        _running[job_id] = worker
     return review_q.get_job(conn, project_id, job_id), True
 
 
@@ -154,7 +122,8 @@ def overview(project_id: int):
     for s in statuses:
         counts[s.status] = counts.get(s.status, 0) + 1
     unsigned = sum(1 for s in statuses if not s.signed)
-    return render_template("record.html", project=project, job=job, form=BuildForm(), counts=counts,
+    issues = record_issues.for_project(conn, project.id)
+    return render_template("record.html", project=project, job=job, form=BuildForm(), counts=counts, issues=issues,
                            labels=drawings.STATUS_LABELS, total=len(statuses), unsigned=unsigned,
                            job_json=_job_json(project.id, job) if job else None)
 
@@ -209,3 +178,30 @@ def schedule(project_id: int, fmt: str):
     return Response(body, mimetype=mimetype, headers={
         "Content-Disposition": f'attachment; filename="asbuilt-schedule-project-{project.id}.{fmt}"'})
 
+
+
+def _register(project_id: int) -> list[ncr.NonConformance]:
+    conn = db.get_db()
+    with db.write(conn):
+        ncr.sync(conn, project_id)
+    return ncr.register(conn, project_id)
+
+
+@bp.get("/projects/<int:project_id>/ncr")
+@login_required
+def ncr_register(project_id: int):
+    """The non-conformance register on its own screen."""
+    project = project_or_404(project_id)
+    items = _register(project.id)
+    return render_template("record_ncr.html", project=project, items=items,
+                           open_count=sum(1 for n in items if n.state == ncr.OPEN))
+
+
+@bp.get("/projects/<int:project_id>/ncr.csv")
+@login_required
+def ncr_csv(project_id: int):
+    """The non-conformance register as CSV (every cell through ``text_rules.csv_cell``)."""
+    project = project_or_404(project_id)
+    body = export.ncr_csv(_register(project.id), CAUTION)
+    return Response(body, mimetype="text/csv; charset=utf-8", headers={
+        "Content-Disposition": f'attachment; filename="ncr-project-{project.id}.csv"'})

@@ -45,6 +45,8 @@ TARGETS = {
     "record_1000_s": (60.0, "max", "s"),
     "record_peak_mb": (400.0, "max", "MB"),
     "record_5000_vs_1000": (5.5, "max", "ratio"),
+    "record_20000_peak_mb": (300.0, "max", "MB"),
+    "record_20000_vs_1000": (22.0, "max", "ratio"),
     "sync_s": (25.0, "max", "s"),
     "sync_duplicates": (0, "max", "count"),
     # issue 24: site scale (20,000 piles)

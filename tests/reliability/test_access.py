@@ -106,6 +106,7 @@ EXPECT: dict[str, str | tuple[str, set[int]]] = {
     "pile_tests.api_list": "member",
     "soundings.show": "member",
     "soundings.upload": "engineer",
+    "record.ncr_register": "member", "record.ncr_csv": "member",
 }
 
 ALLOWED_ROLES = {
