@@ -45,6 +45,10 @@ SQLITE_ONLY = {
     "tests/reliability/test_disk_faults.py": "SQLite's read-only and disk-full faults",
     "tests/reliability/test_restore_guard.py": "the SQLite file backup and restore (a company server "
                                                "restores with pg_restore, tested in test_postgres)",
+    "tests/test_verify_record.py::test_a_file_from_another_data_folder_is_refused":
+        "a second data folder is a second SQLite database (on a server both would share one database)",
+    "tests/test_verify_record.py::test_a_chain_cut_short_after_an_issue_is_found":
+        "cuts the chain short through sqlite3 (the triggers on PostgreSQL refuse it: test_postgres)",
     "tests/reliability/test_tamper.py": "tampers with the SQLite file through sqlite3, and its backups",
 }
 

@@ -19,6 +19,7 @@ from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Iterator
 
+from fieldapp.db_postgres import PgConnection
 from fieldapp.queries import audit, ncr, projects, record_issues, records
 from fieldapp.queries import photos as photos_q
 from fieldapp.queries import piles as piles_q
@@ -31,7 +32,9 @@ def read_snapshot(conn: sqlite3.Connection) -> Iterator[sqlite3.Connection]:
     """One read transaction on ``conn`` for the life of the block."""
     if conn.in_transaction:
         raise RuntimeError("a record build needs a connection outside any transaction")
-    conn.execute("BEGIN")
+    # SQLite in WAL mode: a deferred BEGIN reads one snapshot from its first read; PostgreSQL's
+    # default (read committed) would see each later commit, so ask for repeatable read.
+    conn.execute("BEGIN ISOLATION LEVEL REPEATABLE READ" if isinstance(conn, PgConnection) else "BEGIN")
     try:
         conn.execute("SELECT COUNT(*) FROM audit_log").fetchone()     # the snapshot starts here
         yield conn
