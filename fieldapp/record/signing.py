@@ -14,10 +14,12 @@ file names, and the head it embeds is still in the project's chain.
 
 from __future__ import annotations
 
+import asyncio
 import datetime as dt
 import hashlib
 import os
 import sqlite3
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -48,6 +50,18 @@ class SigningKey:
 
     key_path: Path
     cert_path: Path
+
+
+def _outside_any_loop(fn, *args, **kwargs):
+    """Call one of pyHanko's synchronous functions, which run their own asyncio loop: in this
+    thread when no loop runs here, else in a short-lived thread of its own (a caller inside an
+    event loop, such as a test session driving a browser, would make asyncio.run refuse)."""
+    try:
+        asyncio.get_running_loop()
+    except RuntimeError:
+        return fn(*args, **kwargs)
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        return pool.submit(fn, *args, **kwargs).result()
 
 
 def key_paths(data_dir: str | Path, project_id: int) -> SigningKey:
@@ -94,7 +108,8 @@ def sign(src: str | Path, out: str | Path, key: SigningKey, reason: str) -> str:
     out = Path(out)
     tmp = out.with_name(out.name + ".signing")
     with open(src, "rb") as inf, open(tmp, "wb") as outf:
-        signers.sign_pdf(IncrementalPdfFileWriter(inf, strict=False), meta, signer=signer, output=outf)
+        _outside_any_loop(signers.sign_pdf, IncrementalPdfFileWriter(inf, strict=False), meta,
+                          signer=signer, output=outf)
     os.replace(tmp, out)
     return file_sha256(out)
 
@@ -164,7 +179,7 @@ def verify(path: str | Path, data_dir: str | Path, conn: sqlite3.Connection,
         cert = asn1_x509.Certificate.load(asn1_pem.unarmor(raw)[2])
         sig = sigs[-1]
         try:
-            status = validate_pdf_signature(sig, ValidationContext(trust_roots=[cert]))
+            status = _outside_any_loop(validate_pdf_signature, sig, ValidationContext(trust_roots=[cert]))
         except Exception as exc:
             problems.append(f"the signature cannot be checked ({type(exc).__name__}: {exc})")
             return Verification(False, tuple(problems), pid, revision, seq, head)
